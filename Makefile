@@ -1,0 +1,33 @@
+# The two commands the README shows: `make demo` and `make test`.
+# Both create .venv from python3 if it is absent and install what they need.
+PY ?= python3
+VENV := .venv
+BIN := $(VENV)/bin
+STAMP := $(VENV)/.installed
+TEST_STAMP := $(VENV)/.installed-test
+
+.PHONY: demo test bench clean
+
+$(BIN)/python:
+	$(PY) -m venv $(VENV)
+	$(BIN)/python -m pip install --quiet --upgrade pip
+
+$(STAMP): $(BIN)/python pyproject.toml
+	$(BIN)/python -m pip install --quiet -e .
+	touch $@
+
+$(TEST_STAMP): $(STAMP)
+	$(BIN)/python -m pip install --quiet -e '.[test]'
+	touch $@
+
+demo: $(STAMP)
+	$(BIN)/python -m screener.demo
+
+test: $(TEST_STAMP)
+	$(BIN)/python -m pytest
+
+bench: $(TEST_STAMP)
+	$(BIN)/python -m screener.bench
+
+clean:
+	rm -rf $(VENV) .pytest_cache

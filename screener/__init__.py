@@ -1,0 +1,16 @@
+"""screener: conjunction screening for satellite operators.
+
+Layers, each importing only the ones before it:
+elements -> propagation -> screening -> risk -> store -> cli / tui.
+
+Results are advisory only; see CAUTION.
+"""
+
+__version__ = "0.1.0"
+
+CAUTION = (
+    "Advisory only: screener results do not replace the operator's own procedures, "
+    "the official screening service, local regulation or licensed practice."
+)
+
+__all__ = ["CAUTION", "__version__"]

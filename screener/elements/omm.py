@@ -1,0 +1,200 @@
+"""CCSDS Orbit Mean-elements Message (CCSDS 502.0-B-3): KVN, XML, and the keyword set as CSV/JSON."""
+
+from __future__ import annotations
+
+import csv
+import io
+import json
+import re
+from typing import Iterator
+
+from ..errors import ParseError
+from ..timeutil import datetime_to_jd, parse_iso
+from .record import ElementSet, Source, check_elements
+
+# Keywords this reader needs for SGP4 (CCSDS 502.0-B-3, section 4, mean elements + TLE params).
+REQUIRED = ("EPOCH", "MEAN_MOTION", "ECCENTRICITY", "INCLINATION", "RA_OF_ASC_NODE",
+            "ARG_OF_PERICENTER", "MEAN_ANOMALY", "BSTAR")
+_KVN_LINE = re.compile(r"^\s*([A-Z0-9_]+)\s*=\s*(.*?)\s*(\[[^\]]*\])?\s*$")
+
+
+def _num(fields: dict, key: str, src: Source, default: float | None = None) -> float:
+    if key not in fields or fields[key] in (None, ""):
+        if default is not None:
+            return default
+        raise ParseError(f"missing required OMM keyword {key}", src.path, src.line)
+    try:
+        return float(fields[key])
+    except (TypeError, ValueError):
+        raise ParseError(f"OMM keyword {key} is not numeric: {fields[key]!r}", src.path,
+                         src.line) from None
+
+
+def record_from_omm_fields(fields: dict, src: Source) -> ElementSet:
+    """Build an ElementSet from an OMM keyword -> value mapping (values str or number)."""
+    fields = {str(k).strip().upper(): v for k, v in fields.items()}
+    for key in REQUIRED:
+        if key not in fields or fields[key] in (None, ""):
+            raise ParseError(f"missing required OMM keyword {key}", src.path, src.line)
+    theory = str(fields.get("MEAN_ELEMENT_THEORY", "SGP4")).strip().upper()
+    if theory not in ("SGP4", "SGP/SGP4", "SGP4-XP") and theory:
+        raise ParseError(f"MEAN_ELEMENT_THEORY {theory} is not SGP4", src.path, src.line)
+    try:
+        epoch = parse_iso(str(fields["EPOCH"]))
+    except ValueError as exc:
+        raise ParseError(f"unparseable EPOCH: {exc}", src.path, src.line) from None
+    jd, fr = datetime_to_jd(epoch)
+    cat = fields.get("NORAD_CAT_ID")
+    cat_id = str(cat).strip() if cat not in (None, "") else str(fields.get("OBJECT_ID", "")).strip()
+    if not cat_id:
+        raise ParseError("missing required OMM keyword NORAD_CAT_ID", src.path, src.line)
+    if isinstance(cat, float) and cat.is_integer():
+        cat_id = str(int(cat))
+    rec = ElementSet(
+        catalog_id=cat_id,
+        name=str(fields.get("OBJECT_NAME", "") or "").strip(),
+        epoch_jd=jd,
+        epoch_fr=fr,
+        mean_motion_rev_day=_num(fields, "MEAN_MOTION", src),
+        eccentricity=_num(fields, "ECCENTRICITY", src),
+        inclination_deg=_num(fields, "INCLINATION", src),
+        raan_deg=_num(fields, "RA_OF_ASC_NODE", src),
+        arg_perigee_deg=_num(fields, "ARG_OF_PERICENTER", src),
+        mean_anomaly_deg=_num(fields, "MEAN_ANOMALY", src),
+        bstar_per_earth_radius=_num(fields, "BSTAR", src),
+        ndot_rev_day2=_num(fields, "MEAN_MOTION_DOT", src, 0.0),
+        nddot_rev_day3=_num(fields, "MEAN_MOTION_DDOT", src, 0.0),
+        intl_designator=str(fields.get("OBJECT_ID", "") or "").strip(),
+        classification=str(fields.get("CLASSIFICATION_TYPE", "U") or "U").strip(),
+        element_set_no=int(_num(fields, "ELEMENT_SET_NO", src, 999)),
+        rev_at_epoch=int(_num(fields, "REV_AT_EPOCH", src, 0)),
+        ephemeris_type=int(_num(fields, "EPHEMERIS_TYPE", src, 0)),
+        source=src,
+    )
+    reason = check_elements(rec)
+    if reason:
+        raise ParseError(reason, src.path, src.line)
+    return rec
+
+
+def _safe(fields: dict, src: Source) -> ElementSet | ParseError:
+    try:
+        return record_from_omm_fields(fields, src)
+    except ParseError as exc:
+        return exc
+
+
+def iter_omm_kvn(text: str, path: str) -> Iterator[ElementSet | ParseError]:
+    """KVN: one or more OMMs, each starting at CCSDS_OMM_VERS (or the first keyword)."""
+    current: dict[str, str] = {}
+    start = 0
+    for lineno, raw in enumerate(text.splitlines(), start=1):
+        s = raw.strip()
+        if not s or s.startswith("COMMENT") or s in ("META_START", "META_STOP",
+                                                      "DATA_START", "DATA_STOP"):
+            continue
+        m = _KVN_LINE.match(s)
+        if not m:
+            yield ParseError(f"not a KEY = value line: {s[:40]!r}", path, lineno, 1)
+            continue
+        key, value = m.group(1), m.group(2)
+        if key == "CCSDS_OMM_VERS" and current:
+            yield _safe(current, Source(path, start))
+            current = {}
+        if not current:
+            start = lineno
+        if key in current and key not in ("USER_DEFINED",):
+            yield ParseError(f"keyword {key} repeated in one OMM", path, lineno, 1)
+        current[key] = value
+    if current:
+        yield _safe(current, Source(path, start))
+
+
+def _local(tag: str) -> str:
+    return tag.rsplit("}", 1)[-1]
+
+
+def iter_omm_xml(text: str, path: str) -> Iterator[ElementSet | ParseError]:
+    """XML (OMM or an NDM holding several), parsed with defusedxml: no entities, no DTD fetch."""
+    import defusedxml.ElementTree as DET
+    from defusedxml import DefusedXmlException
+
+    try:
+        root = DET.fromstring(text)
+    except DefusedXmlException as exc:
+        yield ParseError(f"XML refused: {type(exc).__name__} (entities and DTDs are not allowed)",
+                         path, 1)
+        return
+    except Exception as exc:  # ElementTree.ParseError carries the position
+        pos = getattr(exc, "position", (None, None))
+        yield ParseError(f"malformed XML: {exc}", path, pos[0], (pos[1] or 0) + 1 if pos[0] else None)
+        return
+    omms = [el for el in root.iter() if _local(el.tag).lower() == "omm"]
+    # approximate line of each <omm ...> start tag, for error messages
+    starts = [text.count("\n", 0, m.start()) + 1 for m in re.finditer(r"<(\w+:)?omm[\s>]", text)]
+    for k, el in enumerate(omms):
+        fields = {}
+        for leaf in el.iter():
+            if len(leaf) == 0 and leaf.text is not None:
+                fields[_local(leaf.tag).upper()] = leaf.text.strip()
+        yield _safe(fields, Source(path, starts[k] if k < len(starts) else 1))
+
+
+def iter_omm_csv(text: str, path: str) -> Iterator[ElementSet | ParseError]:
+    reader = csv.DictReader(io.StringIO(text))
+    if not reader.fieldnames:
+        yield ParseError("CSV has no header row", path, 1)
+        return
+    for row in reader:
+        lineno = reader.line_num
+        if None in row:
+            yield ParseError("row has more columns than the header", path, lineno)
+            continue
+        yield _safe({k: v for k, v in row.items() if k is not None}, Source(path, lineno))
+
+
+def iter_omm_json(text: str, path: str) -> Iterator[ElementSet | ParseError]:
+    try:
+        data = json.loads(text)
+    except json.JSONDecodeError as exc:
+        yield ParseError(f"malformed JSON: {exc.msg}", path, exc.lineno, exc.colno)
+        return
+    if isinstance(data, dict):
+        data = [data]
+    if not isinstance(data, list):
+        yield ParseError("JSON must be an object or a list of OMM objects", path, 1)
+        return
+    # locate each top-level object's line for messages
+    decoder_lines = _object_lines(text, len(data))
+    for k, item in enumerate(data):
+        src = Source(path, decoder_lines[k])
+        if not isinstance(item, dict):
+            yield ParseError("list item is not an object", path, src.line)
+            continue
+        yield _safe(item, src)
+
+
+def _object_lines(text: str, count: int) -> list[int]:
+    lines, depth, in_str, esc = [], 0, False, False
+    line = 1
+    for ch in text:
+        if ch == "\n":
+            line += 1
+        if in_str:
+            if esc:
+                esc = False
+            elif ch == "\\":
+                esc = True
+            elif ch == '"':
+                in_str = False
+            continue
+        if ch == '"':
+            in_str = True
+        elif ch in "[{":
+            if ch == "{" and depth <= 1:
+                lines.append(line)
+            depth += 1
+        elif ch in "]}":
+            depth -= 1
+    lines += [1] * (count - len(lines))
+    return lines

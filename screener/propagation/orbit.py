@@ -1,0 +1,49 @@
+"""Orbit size from mean motion: Kepler's third law in Newton's form, n^2 a^3 = mu."""
+
+from __future__ import annotations
+
+import dataclasses
+import math
+
+from ..constants import MU_WGS72_KM3_S2, RE_WGS72_KM, TWO_PI
+
+
+@dataclasses.dataclass(frozen=True)
+class OrbitSize:
+    semi_major_axis_km: float
+    period_s: float
+    perigee_radius_km: float
+    apogee_radius_km: float
+    perigee_alt_km: float
+    apogee_alt_km: float
+
+    @property
+    def regime(self) -> str:
+        """LEO / MEO / GEO / HEO by perigee, apogee and period (common practice)."""
+        if self.apogee_alt_km < 2000.0:
+            return "LEO"
+        if abs(self.period_s - 86164.1) < 0.1 * 86164.1 and self.apogee_alt_km - self.perigee_alt_km < 2000:
+            return "GEO"
+        if self.perigee_alt_km < 2000.0:
+            return "HEO"  # includes GTO: perigee in LEO, apogee high
+        return "MEO"
+
+
+def semi_major_axis_km(mean_motion_rad_s: float, mu_km3_s2: float = MU_WGS72_KM3_S2) -> float:
+    """a = (mu / n^2)^(1/3)."""
+    return (mu_km3_s2 / mean_motion_rad_s**2) ** (1.0 / 3.0)
+
+
+def period_s(semi_major_axis_km_: float, mu_km3_s2: float = MU_WGS72_KM3_S2) -> float:
+    """T = 2 pi sqrt(a^3 / mu)."""
+    return TWO_PI * math.sqrt(semi_major_axis_km_**3 / mu_km3_s2)
+
+
+def orbit_from_mean_motion(mean_motion_rad_s: float, eccentricity: float,
+                           mu_km3_s2: float = MU_WGS72_KM3_S2,
+                           earth_radius_km: float = RE_WGS72_KM) -> OrbitSize:
+    a = semi_major_axis_km(mean_motion_rad_s, mu_km3_s2)
+    rp = a * (1.0 - eccentricity)
+    ra = a * (1.0 + eccentricity)
+    return OrbitSize(a, TWO_PI / mean_motion_rad_s, rp, ra, rp - earth_radius_km,
+                     ra - earth_radius_km)

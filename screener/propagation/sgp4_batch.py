@@ -1,0 +1,114 @@
+"""Batch SGP4 through sgp4.api.SatrecArray, chunked so memory stays bounded.
+
+Times are seconds from a window start given as a split Julian date (jd0, fr0); they reach SGP4
+as (jd0, fr0 + t_s/86400), two floats, never one.
+"""
+
+from __future__ import annotations
+
+import math
+import sys
+from typing import Sequence
+
+import numpy as np
+from sgp4.api import SatrecArray, accelerated
+
+from ..constants import MAX_RADIUS_KM, MIN_ALTITUDE_KM, MU_EARTH_KM3_S2, RE_WGS72_KM
+from ..elements.record import ElementSet
+from . import codes
+
+DEFAULT_CHUNK_SAMPLES = 2_000_000  # objects x times per SatrecArray call (~100 MB of output)
+_warned = False
+
+
+def warn_if_slow(stream=sys.stderr) -> bool:
+    """Say loudly once per process when sgp4's compiled extension is missing (~15x slower)."""
+    global _warned
+    if not accelerated and not _warned:
+        _warned = True
+        print("WARNING: sgp4's compiled extension is not available; propagation will be about "
+              "15x slower. Reinstall sgp4 from a wheel for this platform.", file=stream)
+    return accelerated
+
+
+def apply_gates(r_km: np.ndarray, v_km_s: np.ndarray, code: np.ndarray) -> None:
+    """Mark physically implausible SGP4 output (error code 0 but nonsense) in `code`, in place."""
+    rmag = np.sqrt(np.einsum("...i,...i->...", r_km, r_km))
+    v2 = np.einsum("...i,...i->...", v_km_s, v_km_s)
+    ok = code == codes.OK
+    with np.errstate(invalid="ignore", divide="ignore"):
+        low = ok & (rmag < RE_WGS72_KM + MIN_ALTITUDE_KM)
+        far = ok & (rmag > MAX_RADIUS_KM)
+        fast = ok & (v2 > 1.05 * 2.0 * MU_EARTH_KM3_S2 / rmag)
+    code[low] = codes.BELOW_100_KM
+    code[far] = codes.IMPLAUSIBLE_RADIUS
+    code[fast & ~low & ~far] = codes.IMPLAUSIBLE_SPEED
+
+
+class Sgp4Batch:
+    """A fixed list of element sets, propagated together.  Satrecs are built once, here."""
+
+    def __init__(self, records: Sequence[ElementSet]):
+        warn_if_slow()
+        self.records = list(records)
+        self._sats = [r.make_satrec() for r in self.records]
+
+    def __len__(self) -> int:
+        return len(self.records)
+
+    def states(self, jd0: float, fr0: float, t_s: np.ndarray, gates: bool = True,
+               chunk_samples: int = DEFAULT_CHUNK_SAMPLES, rows: Sequence[int] | None = None,
+               out: tuple[np.ndarray, np.ndarray, np.ndarray] | None = None):
+        """Positions (n, m, 3) km and velocities (n, m, 3) km/s in TEME, and codes (n, m) int8.
+
+        Rows whose SGP4 call failed are NaN with SGP4's error code; `gates` additionally marks
+        implausible states (they keep their numbers; use `code == 0` as the usable mask).
+        """
+        t_s = np.ascontiguousarray(t_s, dtype=np.float64)
+        idx = np.arange(len(self._sats)) if rows is None else np.asarray(rows)
+        n, m = len(idx), len(t_s)
+        if out is None:
+            r = np.empty((n, m, 3))
+            v = np.empty((n, m, 3))
+            code = np.empty((n, m), dtype=np.int8)
+        else:
+            r, v, code = out
+        jd = np.full(m, jd0)
+        fr = fr0 + t_s / 86400.0
+        per = max(1, chunk_samples // max(1, m))
+        for a in range(0, n, per):
+            b = min(n, a + per)
+            sub = SatrecArray([self._sats[k] for k in idx[a:b]])
+            if m * (b - a) <= chunk_samples:
+                e, rr, vv = sub.sgp4(jd, fr)
+                r[a:b], v[a:b], code[a:b] = rr, vv, e
+            else:  # one object, very many times: chunk over time
+                step = chunk_samples
+                for c in range(0, m, step):
+                    e, rr, vv = sub.sgp4(jd[c:c + step], fr[c:c + step])
+                    r[a:b, c:c + step], v[a:b, c:c + step], code[a:b, c:c + step] = rr, vv, e
+        failed = code != codes.OK
+        if failed.any():  # SGP4 sometimes returns numbers with an error code: never use them
+            r[failed] = np.nan
+            v[failed] = np.nan
+        if gates:
+            apply_gates(r, v, code)
+        return r, v, code
+
+    def state_at(self, k: int, jd0: float, fr0: float, t_s: float):
+        """One object, one time (for root finding): r, v arrays (3,), code int."""
+        sat = self._sats[k]
+        e, r, v = sat.sgp4(jd0, fr0 + t_s / 86400.0)
+        r = np.array(r)
+        v = np.array(v)
+        c = np.array([e], dtype=np.int8)
+        if e != 0:
+            r[:] = np.nan
+            v[:] = np.nan
+        else:
+            apply_gates(r[None], v[None], c)
+        return r, v, int(c[0])
+
+
+def chunk_count(n_objects: int, n_times: int, chunk_samples: int = DEFAULT_CHUNK_SAMPLES) -> int:
+    return math.ceil(n_objects / max(1, chunk_samples // max(1, n_times)))
