@@ -101,13 +101,18 @@ class Sgp4Batch:
         e, r, v = sat.sgp4(jd0, fr0 + t_s / 86400.0)
         r = np.array(r)
         v = np.array(v)
-        c = np.array([e], dtype=np.int8)
         if e != 0:
             r[:] = np.nan
             v[:] = np.nan
-        else:
-            apply_gates(r[None], v[None], c)
-        return r, v, int(c[0])
+            return r, v, int(e)
+        rm2 = r @ r
+        if rm2 < (RE_WGS72_KM + MIN_ALTITUDE_KM) ** 2:
+            return r, v, codes.BELOW_100_KM
+        if rm2 > MAX_RADIUS_KM**2:
+            return r, v, codes.IMPLAUSIBLE_RADIUS
+        if v @ v > 1.05 * 2.0 * MU_EARTH_KM3_S2 / math.sqrt(rm2):
+            return r, v, codes.IMPLAUSIBLE_SPEED
+        return r, v, codes.OK
 
 
 def chunk_count(n_objects: int, n_times: int, chunk_samples: int = DEFAULT_CHUNK_SAMPLES) -> int:

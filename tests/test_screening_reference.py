@@ -1,0 +1,135 @@
+"""The screening engine against an independent brute-force reference.
+
+Reference (written here, sharing no code with the engine): plain sgp4 (sgp4.api.SatrecArray and
+Satrec.sgp4) samples every pair every 2 s; each sampled local minimum of range is refined with
+scipy.optimize.minimize_scalar (bounded) on squared range.  Acceptance, per the screening
+issue: recall 100 %, TCA within 1 ms, miss within 1 m, nothing reported that the reference
+does not report.
+"""
+
+from __future__ import annotations
+
+import itertools
+
+import numpy as np
+import pytest
+from scipy.optimize import minimize_scalar
+from sgp4.api import SatrecArray
+
+from screener.screening import ScreeningRequest, Volume, screen
+
+from .scenarios import WINDOW_S, hard_cases
+
+ONE_MS = 1e-3
+ONE_METRE_KM = 1e-3
+RADIUS_KM = 5.0
+STEP_S = 2.0
+SLOW_KM_S = 0.05
+
+
+def brute_force(records, jd0, fr0, window_s, radius_km, pairs):
+    sats = [r.make_satrec() for r in records]
+    t = np.arange(0.0, window_s + STEP_S / 2, STEP_S)
+    e, r, _ = SatrecArray(sats).sgp4(np.full(len(t), jd0), fr0 + t / 86400.0)
+    r[e != 0] = np.nan
+    found = []
+    for a, b in pairs:
+        d = np.linalg.norm(r[b] - r[a], axis=1)
+        k = np.nonzero((d[1:-1] < d[:-2]) & (d[1:-1] <= d[2:]) & (d[1:-1] < radius_km + 16.0 * STEP_S))[0] + 1  # 16 km/s bound
+
+        def d2(ts, a=a, b=b):
+            ea, ra, _ = sats[a].sgp4(jd0, fr0 + ts / 86400.0)
+            eb, rb, _ = sats[b].sgp4(jd0, fr0 + ts / 86400.0)
+            return float(np.sum((np.array(rb) - np.array(ra)) ** 2))
+
+        for kk in k:
+            res = minimize_scalar(d2, bounds=(t[kk - 1], t[kk + 1]), method="bounded",
+                                  options={"xatol": 1e-7})
+            if np.sqrt(res.fun) <= radius_km:
+                found.append((records[a].catalog_id, records[b].catalog_id, res.x, np.sqrt(res.fun)))
+    return found
+
+
+def _compare(engine, reference):
+    matched = 0
+    for p, s, tca, miss in reference:
+        cands = [e for e in engine if {e.primary, e.secondary} == {p, s} and abs(e.tca_s - tca) < 1.0]
+        assert cands, f"engine missed {p} x {s} at t={tca:.3f} s (miss {miss * 1e3:.1f} m)"
+        e = cands[0]
+        if e.relative_speed_km_s >= SLOW_KM_S:
+            assert abs(e.tca_s - tca) < ONE_MS, (p, s, e.tca_s - tca)
+        else:
+            # A slow pass has a flat range at TCA: 1 ms moves the range by (w * 1 ms)^2 / 2d,
+            # ~1e-11 km at 4 m/s, under SGP4's own numeric noise, so a minimiser of range
+            # (the reference) cannot place TCA to 1 ms.  The engine solves rho.rho_dot = 0
+            # instead; there we ask 10 ms and a range no larger than the reference's.
+            assert abs(e.tca_s - tca) < 10 * ONE_MS, (p, s, e.tca_s - tca)
+            assert e.miss_km <= miss + 1e-9
+        assert abs(e.miss_km - miss) < ONE_METRE_KM, (p, s, e.miss_km - miss)
+        matched += 1
+    assert len(engine) == len(reference), "engine reported encounters the reference does not"
+    return matched
+
+
+@pytest.fixture(scope="module")
+def scenario():
+    return hard_cases()
+
+
+def test_fleet_vs_catalog_matches_brute_force(scenario):
+    prim, sec = scenario["primaries"], scenario["secondaries"]
+    req = ScreeningRequest(catalog=sec, primaries=prim, jd0=scenario["jd0"], fr0=scenario["fr0"],
+                           duration_s=WINDOW_S, volume=Volume.sphere(RADIUS_KM))
+    res = screen(req)
+    recs = prim + sec
+    pairs = [(a, len(prim) + b) for a in range(len(prim)) for b in range(len(sec))]
+    ref = brute_force(recs, scenario["jd0"], scenario["fr0"], WINDOW_S, RADIUS_KM, pairs)
+    kinds = {s for _, s, _, _ in ref}
+    # every engineered hard case is present in the reference itself
+    assert {"T0001", "T0002", "T0003", "T0004", "T0005", "T0006", "T0007", "T0008"} <= kinds
+    assert any(t < 10 for *_, t, _ in ref) and any(t > WINDOW_S - 10 for *_, t, _ in ref)
+    assert _compare(res.encounters, ref) == len(ref)
+
+
+def test_all_vs_all_matches_brute_force(scenario):
+    recs = scenario["primaries"] + scenario["secondaries"][:12]
+    req = ScreeningRequest(catalog=recs, jd0=scenario["jd0"], fr0=scenario["fr0"],
+                           duration_s=WINDOW_S, volume=Volume.sphere(RADIUS_KM))
+    res = screen(req)
+    pairs = list(itertools.combinations(range(len(recs)), 2))
+    ref = brute_force(recs, scenario["jd0"], scenario["fr0"], WINDOW_S, RADIUS_KM, pairs)
+    assert len(ref) >= 8
+    _compare(res.encounters, ref)
+    assert "T0009" in res.unusable  # the decaying object is reported, the run goes on
+
+
+def test_reported_tca_is_a_range_minimum_on_plain_sgp4(scenario):
+    """At each reported TCA, plain sgp4 gives the reported miss to 1 m and range rate ~0."""
+    prim, sec = scenario["primaries"], scenario["secondaries"]
+    req = ScreeningRequest(catalog=sec, primaries=prim, jd0=scenario["jd0"], fr0=scenario["fr0"],
+                           duration_s=WINDOW_S, volume=Volume.sphere(RADIUS_KM))
+    by_id = {r.catalog_id: r for r in prim + sec}
+    for e in screen(req).encounters:
+        jd, fr = e.tca_jd
+        _, ra, va = by_id[e.primary].make_satrec().sgp4(jd, fr)
+        _, rb, vb = by_id[e.secondary].make_satrec().sgp4(jd, fr)
+        rho, w = np.subtract(rb, ra), np.subtract(vb, va)
+        assert abs(np.linalg.norm(rho) - e.miss_km) < ONE_METRE_KM
+        # range rate rho.w/|rho| after 1 ms of TCA error would be |w|^2 * 1e-3 / |rho|
+        assert abs(rho @ w) / np.linalg.norm(rho) < max(1e-6, (w @ w) * ONE_MS / np.linalg.norm(rho))
+
+
+def test_filters_never_drop_an_encounter_the_reference_finds(scenario):
+    """The apogee/perigee filter with its pad keeps every pair the brute force finds close."""
+    from screener.screening.filters import apogee_perigee_mask, bounds_array, radial_bounds_km
+
+    prim, sec = scenario["primaries"], scenario["secondaries"]
+    recs = prim + sec
+    pairs = [(a, len(prim) + b) for a in range(len(prim)) for b in range(len(sec))]
+    ref = brute_force(recs, scenario["jd0"], scenario["fr0"], WINDOW_S, 50.0, pairs)
+    ids = [r.catalog_id for r in recs]
+    b = bounds_array([radial_bounds_km(r, 1.0, r.age_days_at(scenario["jd0"], scenario["fr0"]))
+                      for r in recs])
+    for p, s, _, _ in ref:
+        i, j = ids.index(p), ids.index(s)
+        assert apogee_perigee_mask(b[[i]], b[[j]], 50.0)[0, 0], (p, s)
