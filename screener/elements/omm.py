@@ -141,16 +141,19 @@ def iter_omm_xml(text: str, path: str) -> Iterator[ElementSet | ParseError]:
 
 
 def iter_omm_csv(text: str, path: str) -> Iterator[ElementSet | ParseError]:
-    reader = csv.DictReader(io.StringIO(text))
-    if not reader.fieldnames:
-        yield ParseError("CSV has no header row", path, 1)
-        return
-    for row in reader:
-        lineno = reader.line_num
-        if None in row:
-            yield ParseError("row has more columns than the header", path, lineno)
-            continue
-        yield _safe({k: v for k, v in row.items() if k is not None}, Source(path, lineno))
+    reader = csv.DictReader(io.StringIO(text, newline=""))
+    try:
+        if not reader.fieldnames:
+            yield ParseError("CSV has no header row", path, 1)
+            return
+        for row in reader:
+            lineno = reader.line_num
+            if None in row:
+                yield ParseError("row has more columns than the header", path, lineno)
+                continue
+            yield _safe({k: v for k, v in row.items() if k is not None}, Source(path, lineno))
+    except csv.Error as exc:
+        yield ParseError(f"malformed CSV: {exc}", path, reader.line_num or 1)
 
 
 def iter_omm_json(text: str, path: str) -> Iterator[ElementSet | ParseError]:

@@ -1,0 +1,1 @@
+"""Command line: thin shell over the engine."""

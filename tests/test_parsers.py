@@ -1,0 +1,224 @@
+"""Element-set readers: malformed inputs, property tests, round trips, OEM interpolation.
+
+Sources: TLE column layout and checksum rule (common practice, the NORAD two-line format);
+CCSDS 502.0-B-3 (OMM/OEM keywords); sgp4's shipped SGP4-VER.TLE for valid real-format lines.
+"""
+
+from __future__ import annotations
+
+import json
+import os
+from importlib.resources import files
+
+import numpy as np
+import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
+
+from screener.elements import ElementSet, load_elements, read_oem
+from screener.elements.catalog import iter_file
+from screener.elements.omm import iter_omm_csv, iter_omm_json, iter_omm_kvn, iter_omm_xml
+from screener.elements.tle import iter_tle_text
+from screener.errors import ParseError
+from screener.propagation import OemTrajectory, Sgp4Batch
+
+DEMO = os.path.join(os.path.dirname(__file__), "..", "demo_elements")
+L1 = "1 00005U 58002B   00179.78495062  .00000023  00000-0  28098-4 0  4753"
+L2 = "2 00005  34.2682 348.7242 1859667 331.7664  19.3264 10.82419157413667"
+ONE_METRE_KM = 1e-3
+
+
+def _errors(text, reader=iter_tle_text):
+    return [x for x in reader(text, "f.tle") if isinstance(x, ParseError)]
+
+
+def test_bad_checksum_names_file_line_column():
+    bad = L1[:-1] + "0"
+    (err,) = _errors(f"{bad}\n{L2}\n")
+    assert (err.path, err.line, err.column) == ("f.tle", 1, 69) and "checksum" in err.reason
+
+
+def test_line_number_pairing():
+    assert "not followed by line 2" in _errors(f"{L1}\n{L1}\n")[0].reason
+    assert "line 2 without" in _errors(f"{L2}\n")[0].reason
+    other = L2.replace("00005", "00006", 1)
+    assert "does not match" in _errors(f"{L1}\n{other}\n")[0].reason
+
+
+def test_non_numeric_field_and_truncation():
+    bad = L2[:8] + " 3x.2682" + L2[16:]
+    errs = _errors(f"{L1}\n{bad}\n")
+    assert errs and errs[0].line == 2
+    assert "truncated" in _errors(f"NAME\n{L1}\n")[0].reason
+
+
+def test_eccentricity_and_mean_motion_checks():
+    rec = ElementSet.from_tle(L1, L2)
+    with pytest.raises(ParseError, match="mean motion"):
+        ElementSet.from_omm({"EPOCH": "2026-12-01T00:00:00", "MEAN_MOTION": "-1",
+                             "ECCENTRICITY": "0.1", "INCLINATION": "10", "RA_OF_ASC_NODE": "0",
+                             "ARG_OF_PERICENTER": "0", "MEAN_ANOMALY": "0", "BSTAR": "0",
+                             "NORAD_CAT_ID": "1"})
+    with pytest.raises(ParseError, match="eccentricity"):
+        ElementSet.from_omm({"EPOCH": "2026-12-01T00:00:00", "MEAN_MOTION": "15",
+                             "ECCENTRICITY": "1.2", "INCLINATION": "10", "RA_OF_ASC_NODE": "0",
+                             "ARG_OF_PERICENTER": "0", "MEAN_ANOMALY": "0", "BSTAR": "0",
+                             "NORAD_CAT_ID": "1"})
+    assert rec.eccentricity == pytest.approx(0.1859667)
+
+
+OMM_KVN = """CCSDS_OMM_VERS = 3.0
+CREATION_DATE = 2026-12-01T00:00:00
+ORIGINATOR = TEST
+OBJECT_NAME = SYN-A
+OBJECT_ID = 2026-999A
+CENTER_NAME = EARTH
+REF_FRAME = TEME
+TIME_SYSTEM = UTC
+MEAN_ELEMENT_THEORY = SGP4
+EPOCH = 2026-12-01T12:34:56.123456
+MEAN_MOTION = 15.2 [rev/day]
+ECCENTRICITY = 0.0012
+INCLINATION = 53.0 [deg]
+RA_OF_ASC_NODE = 10.0
+ARG_OF_PERICENTER = 20.0
+MEAN_ANOMALY = 30.0
+NORAD_CAT_ID = 912345678
+BSTAR = 0.0001
+"""
+
+
+def test_omm_kvn_keeps_microseconds_and_large_catalog_numbers():
+    (rec,) = list(iter_omm_kvn(OMM_KVN, "a.omm"))
+    assert rec.catalog_id == "912345678" and rec.sgp4_satnum == 0  # placeholder for SGP4
+    assert rec.epoch.microsecond == 123456
+    r, _, code = Sgp4Batch([rec]).states(rec.epoch_jd, rec.epoch_fr, np.array([0.0, 60.0]))
+    assert (code == 0).all()
+
+
+def test_omm_missing_keyword_and_bad_epoch():
+    text = OMM_KVN.replace("BSTAR = 0.0001\n", "")
+    (err,) = list(iter_omm_kvn(text, "a.omm"))
+    assert isinstance(err, ParseError) and "BSTAR" in err.reason and err.line == 1
+    (err,) = list(iter_omm_kvn(OMM_KVN.replace("2026-12-01T12", "2026-13-01T12"), "a.omm"))
+    assert "EPOCH" in err.reason
+
+
+def test_omm_json_numbers_or_strings_and_csv_and_xml():
+    fields = {k: v for k, v in (l.split(" = ") for l in OMM_KVN.strip().splitlines())}
+    fields = {k: v.split(" [")[0] for k, v in fields.items()}
+    as_str = json.dumps([fields])
+    as_num = json.dumps([{k: (float(v) if k in ("MEAN_MOTION", "BSTAR") else v) for k, v in fields.items()}])
+    a = list(iter_omm_json(as_str, "a.json"))[0]
+    b = list(iter_omm_json(as_num, "a.json"))[0]
+    assert a.mean_motion_rev_day == b.mean_motion_rev_day == 15.2
+    csv_text = ",".join(fields) + "\n" + ",".join(fields.values()) + "\n"
+    c = list(iter_omm_csv(csv_text, "a.csv"))[0]
+    assert c.catalog_id == "912345678"
+    xml = "<ndm><omm><body><segment><data><meanElements>" + "".join(
+        f"<{k}>{v}</{k}>" for k, v in fields.items()) + "</meanElements></data></segment></body></omm></ndm>"
+    d = list(iter_omm_xml(xml, "a.xml"))[0]
+    assert d.epoch == a.epoch
+
+
+def test_xml_entities_refused():
+    bomb = '<?xml version="1.0"?><!DOCTYPE x [<!ENTITY a "aaaa">]><omm>&a;</omm>'
+    (err,) = list(iter_omm_xml(bomb, "b.xml"))
+    assert isinstance(err, ParseError) and "refused" in err.reason
+
+
+def test_duplicates_keep_newest_and_say_so(tmp_path):
+    rec = ElementSet.from_tle(L1, L2)
+    import dataclasses
+    newer = dataclasses.replace(rec, epoch_fr=rec.epoch_fr + 0.1, tle_lines=None)
+    l1, l2 = newer.to_tle()
+    p = tmp_path / "dup.tle"
+    p.write_text(f"{L1}\n{L2}\n{l1}\n{l2}\n")
+    rep = load_elements(str(p))
+    assert len(rep.records) == 1 and len(rep.superseded) == 1
+    assert rep.records[0].epoch_fr == pytest.approx(newer.epoch_fr, abs=1e-8)
+
+
+def test_strict_mode_raises_first_error(tmp_path):
+    p = tmp_path / "x.tle"
+    p.write_text(f"{L1[:-1]}0\n{L2}\n")
+    with pytest.raises(ParseError):
+        load_elements(str(p), strict=True)
+    assert len(load_elements(str(p)).errors) == 1
+
+
+def test_tle_round_trip_on_verification_set():
+    """record -> TLE -> record gives the same fields; the canonical lines come back verbatim."""
+    lines = files("sgp4").joinpath("SGP4-VER.TLE").read_text().splitlines()
+    exact = 0
+    for k, l1 in enumerate(lines):
+        if not l1.startswith("1 "):
+            continue
+        l1, l2 = l1[:69], lines[k + 1][:69]
+        rec = ElementSet.from_tle(l1, l2, verify_checksum=False)
+        o1, o2 = rec.to_tle()
+        back = ElementSet.from_tle(o1, o2)
+        for f in ("mean_motion_rev_day", "eccentricity", "inclination_deg", "raan_deg",
+                  "arg_perigee_deg", "mean_anomaly_deg", "bstar_per_earth_radius", "epoch_fr"):
+            assert getattr(back, f) == pytest.approx(getattr(rec, f), rel=1e-9, abs=1e-12), f
+        exact += (o1, o2) == (l1, l2)
+    assert exact >= 10
+
+
+def test_demo_catalog_round_trips_verbatim():
+    text = open(os.path.join(DEMO, "catalog.tle")).read().splitlines()
+    recs = [r for r in iter_tle_text("\n".join(text[:301]), "catalog.tle")]
+    assert all(not isinstance(r, ParseError) for r in recs)
+    for r in recs:
+        assert r.to_tle() == r.tle_lines
+
+
+@settings(max_examples=300, deadline=None)
+@given(st.binary(max_size=600))
+def test_any_bytes_yield_records_or_parse_errors(blob):
+    text = blob.decode("utf-8", errors="replace")
+    for reader in (iter_tle_text, iter_omm_kvn, iter_omm_xml, iter_omm_csv, iter_omm_json):
+        for item in reader(text, "fuzz"):
+            assert isinstance(item, (ElementSet, ParseError))
+    try:
+        read_oem("fuzz.oem", text=text)
+    except ParseError:
+        pass
+
+
+@settings(max_examples=150, deadline=None)
+@given(st.text(alphabet="0123456789 .-+U12AZ\n", max_size=300))
+def test_tle_like_text_yields_records_or_parse_errors(text):
+    for item in iter_tle_text(L1 + "\n" + text, "fuzz"):
+        assert isinstance(item, (ElementSet, ParseError))
+
+
+def test_oem_interpolation_under_one_metre_against_generating_states():
+    oem = read_oem(os.path.join(DEMO, "larkspur-3.oem"))
+    fleet = [r for r in iter_file(os.path.join(DEMO, "fleet.json")) if r.name == "LARKSPUR-3"][0]
+    traj = OemTrajectory(oem)
+    seg = oem.segments[0]
+    jd0 = seg.start_jd
+    t = seg.t_s[0] + np.arange(30.0, 3 * 86400.0, 97.0)   # between the 60 s nodes
+    r, _, code = traj.states(jd0, 0.0, t)
+    _, want, _ = None, *Sgp4Batch([fleet]).states(jd0, 0.0, t)[:1], None
+    assert (code == 0).all()
+    assert np.max(np.linalg.norm(r - want[0], axis=1)) < ONE_METRE_KM
+
+
+def test_oem_refuses_extrapolation():
+    oem = read_oem(os.path.join(DEMO, "larkspur-3.oem"))
+    traj = OemTrajectory(oem)
+    from screener.errors import PropagationError
+    with pytest.raises(PropagationError, match="usable span"):
+        traj.states(oem.segments[0].start_jd, 0.0, np.array([10 * 86400.0]), strict=True)
+
+
+def test_oem_errors_name_the_line(tmp_path):
+    text = open(os.path.join(DEMO, "larkspur-3.oem")).read().splitlines()
+    text[20] = text[20].replace(".", "x", 2)
+    with pytest.raises(ParseError) as exc:
+        read_oem("bad.oem", "\n".join(text))
+    assert exc.value.line == 21
+    with pytest.raises(ParseError, match="META_STOP"):
+        read_oem("cut.oem", "\n".join(text[:10]))
