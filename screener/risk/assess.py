@@ -1,0 +1,44 @@
+"""One encounter's risk figures from states and covariances (any source)."""
+
+from __future__ import annotations
+
+import numpy as np
+
+from .encounter_plane import project, ric_to_inertial_cov
+from .pc import (chan_is_reliable, in_dilution_region, pc_chan, pc_max_line, pc_max_scaled,
+                 pc_quadrature)
+
+
+def assess(r1_km, v1_km_s, cov1_rtn_km2, r2_km, v2_km_s, cov2_rtn_km2, hbr_m: float,
+           covariance_source: str) -> dict:
+    """Covariances are 3x3 position blocks in each object's own RTN frame (km^2)."""
+    r1, v1, r2, v2 = (np.asarray(x, float) for x in (r1_km, v1_km_s, r2_km, v2_km_s))
+    c = ric_to_inertial_cov(cov1_rtn_km2, r1, v1) + ric_to_inertial_cov(cov2_rtn_km2, r2, v2)
+    rho, w = r2 - r1, v2 - v1
+    g = project(rho, w, c)
+    args = (g.xm_m, g.ym_m, g.sx_m, g.sy_m, hbr_m)
+    pc_ref = pc_quadrature(*args)
+    ok, why = chan_is_reliable(*args)
+    if ok:
+        pc, method = pc_chan(*args), "Chan series"
+    else:
+        pc, method = pc_ref, f"2-D quadrature (Chan not used: {why})"
+    worst, _ = pc_max_scaled(*args)
+    return {
+        "pc": pc, "pc_method": method, "pc_quadrature": pc_ref,
+        "log10_pc": float(np.log10(pc)) if pc > 0 else None,
+        "pc_max": worst, "pc_max_any_shape": pc_max_line(g.miss_m, hbr_m),
+        "dilution_region": in_dilution_region(*args),
+        "miss_km": float(np.linalg.norm(rho)), "relative_speed_km_s": float(np.linalg.norm(w)),
+        "sigma_major_m": max(g.sx_m, g.sy_m), "sigma_minor_m": min(g.sx_m, g.sy_m),
+        "hbr_m": hbr_m, "covariance_source": covariance_source,
+        "covariance_note": "objects' errors assumed uncorrelated (combined = sum)",
+    }
+
+
+def assess_cdm(cdm, hbr_m: float) -> dict:
+    o1, o2 = cdm.objects
+    out = assess(o1.r_km, o1.v_km_s, o1.cov_rtn_m[:3, :3] * 1e-6, o2.r_km, o2.v_km_s,
+                 o2.cov_rtn_m[:3, :3] * 1e-6, hbr_m, "CDM covariance")
+    out["tca"] = cdm.tca_text
+    return out

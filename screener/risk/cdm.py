@@ -1,0 +1,143 @@
+"""CCSDS Conjunction Data Message (CCSDS 508.0-B-1), KVN: write one per event, read back.
+
+Keyword lists and units are from CCSDS 508.0-B-1 (from memory of the standard's tables 3-1 to
+3-5; obligatory keywords only plus the optional ones written here).  Positions km, velocities
+km/s, covariance in the object's RTN frame in m^2, m^2/s, m^2/s^2.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import re
+
+import numpy as np
+
+from ..errors import ParseError
+
+HEADER = ("CCSDS_CDM_VERS", "CREATION_DATE", "ORIGINATOR", "MESSAGE_ID")
+RELATIVE = ("TCA", "MISS_DISTANCE")
+OBJECT_META = ("OBJECT", "OBJECT_DESIGNATOR", "CATALOG_NAME", "OBJECT_NAME",
+               "INTERNATIONAL_DESIGNATOR", "EPHEMERIS_NAME", "COVARIANCE_METHOD", "MANEUVERABLE",
+               "REF_FRAME")
+STATE = ("X", "Y", "Z", "X_DOT", "Y_DOT", "Z_DOT")
+COV_AXES = ("R", "T", "N", "RDOT", "TDOT", "NDOT")
+COVARIANCE = tuple(f"C{COV_AXES[i]}_{COV_AXES[j]}" for i in range(6) for j in range(i + 1))
+OBLIGATORY_PER_OBJECT = OBJECT_META + STATE + COVARIANCE
+_KVN = re.compile(r"^\s*([A-Z0-9_]+)\s*=\s*(.*?)\s*(\[[^\]]*\])?\s*$")
+
+
+@dataclasses.dataclass
+class CdmObject:
+    fields: dict
+    r_km: np.ndarray
+    v_km_s: np.ndarray
+    cov_rtn_m: np.ndarray     # 6x6 (m, m/s)
+
+
+@dataclasses.dataclass
+class Cdm:
+    path: str
+    header: dict
+    relative: dict
+    objects: list
+
+    @property
+    def tca_text(self) -> str:
+        return self.relative["TCA"]
+
+    @property
+    def object1_designator(self) -> str:
+        return self.objects[0].fields["OBJECT_DESIGNATOR"]
+
+    @property
+    def object2_designator(self) -> str:
+        return self.objects[1].fields["OBJECT_DESIGNATOR"]
+
+
+def read_cdm(path: str, text: str | None = None) -> Cdm:
+    if text is None:
+        try:
+            with open(path, encoding="utf-8", errors="replace") as fh:
+                text = fh.read()
+        except OSError as exc:
+            raise ParseError(f"cannot read file: {exc.strerror}", path) from None
+    header, relative, objects = {}, {}, []
+    current = None
+    lineno_of = {}
+    for lineno, raw in enumerate(text.splitlines(), start=1):
+        s = raw.strip()
+        if not s or s.startswith("COMMENT"):
+            continue
+        m = _KVN.match(s)
+        if not m:
+            raise ParseError(f"not a KEY = value line: {s[:40]!r}", path, lineno, 1)
+        key, value = m.group(1), m.group(2)
+        if key == "OBJECT":
+            current = {}
+            objects.append(current)
+        target = current if current is not None else (header if key in HEADER else relative)
+        target[key] = value
+        lineno_of[(len(objects), key)] = lineno
+    for key in HEADER:
+        if key not in header:
+            raise ParseError(f"missing obligatory CDM keyword {key}", path, 1)
+    for key in RELATIVE:
+        if key not in relative:
+            raise ParseError(f"missing obligatory CDM keyword {key}", path, 1)
+    if len(objects) != 2:
+        raise ParseError(f"a CDM has two OBJECT sections, found {len(objects)}", path, 1)
+    out = []
+    for k, obj in enumerate(objects, start=1):
+        for key in OBLIGATORY_PER_OBJECT:
+            if key not in obj:
+                raise ParseError(f"OBJECT{k}: missing obligatory CDM keyword {key}", path,
+                                 lineno_of.get((k, "OBJECT"), 1))
+        if obj["REF_FRAME"].upper() not in ("EME2000", "GCRF", "ITRF"):
+            raise ParseError(f"OBJECT{k}: REF_FRAME {obj['REF_FRAME']} not one of EME2000, GCRF, ITRF",
+                             path, lineno_of[(k, "REF_FRAME")])
+
+        def num(key):
+            try:
+                return float(obj[key])
+            except ValueError:
+                raise ParseError(f"OBJECT{k}: {key} is not numeric: {obj[key]!r}", path,
+                                 lineno_of[(k, key)]) from None
+
+        r = np.array([num(x) for x in STATE[:3]])
+        v = np.array([num(x) for x in STATE[3:]])
+        c = np.zeros((6, 6))
+        c[np.tril_indices(6)] = [num(x) for x in COVARIANCE]
+        c = c + np.tril(c, -1).T
+        if np.linalg.eigvalsh(c[:3, :3]).min() < -1e-6 * max(1.0, np.abs(c[:3, :3]).max()):
+            raise ParseError(f"OBJECT{k}: position covariance is not positive semi-definite",
+                             path, lineno_of[(k, "CR_R")])
+        out.append(CdmObject(obj, r, v, c))
+    try:
+        float(relative["MISS_DISTANCE"])
+    except ValueError:
+        raise ParseError("MISS_DISTANCE is not numeric", path, 1) from None
+    return Cdm(path, header, relative, out)
+
+
+def write_cdm(path: str, header: dict, relative: dict, objects: list[dict]) -> None:
+    """objects: two dicts with OBJECT_META keys plus 'r_km', 'v_km_s', 'cov_rtn_m' (6x6)."""
+    units = {"MISS_DISTANCE": "m", "RELATIVE_SPEED": "m/s", "X": "km", "Y": "km", "Z": "km",
+             "X_DOT": "km/s", "Y_DOT": "km/s", "Z_DOT": "km/s"}
+    lines = [f"{k:<36}= {header[k]}" for k in HEADER]
+    for k, v in relative.items():
+        u = units.get(k) or ("m" if k.startswith("RELATIVE_POSITION") else
+                             "m/s" if k.startswith("RELATIVE_VELOCITY") else None)
+        lines.append(f"{k:<36}= {v}" + (f" [{u}]" if u else ""))
+    for obj in objects:
+        for k in OBJECT_META:
+            lines.append(f"{k:<36}= {obj[k]}")
+        for k, x in zip(STATE, [*obj["r_km"], *obj["v_km_s"]]):
+            lines.append(f"{k:<36}= {x:.9f} [{units[k]}]")
+        c = np.asarray(obj["cov_rtn_m"])
+        for name in COVARIANCE:
+            a, b = name[1:].split("_")
+            i, j = COV_AXES.index(a), COV_AXES.index(b)
+            unit = "m**2" if i < 3 and j < 3 else "m**2/s" if (i < 3) != (j < 3) else "m**2/s**2"
+            lines.append(f"{name:<36}= {c[i, j]:.9e} [{unit}]")
+    with open(path, "w", encoding="utf-8") as fh:
+        fh.write("\n".join(lines) + "\n")

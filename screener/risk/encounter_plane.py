@@ -1,0 +1,48 @@
+"""From 3-D states and covariances at TCA to the 2-D encounter plane."""
+
+from __future__ import annotations
+
+import dataclasses
+
+import numpy as np
+
+
+@dataclasses.dataclass
+class PlaneGeometry:
+    xm_m: float          # miss along the combined covariance's first principal axis, m
+    ym_m: float
+    sx_m: float          # principal standard deviations, m
+    sy_m: float
+    miss_m: float
+    cov2_m2: np.ndarray  # 2x2 in the (miss direction, normal) plane frame
+    basis: np.ndarray    # 2x3 rows: plane axes in the inertial frame
+
+
+def plane_basis(rho_km: np.ndarray, w_km_s: np.ndarray) -> np.ndarray:
+    """Rows: x = miss direction (rho with its along-w part removed), y = w_hat x x."""
+    wh = w_km_s / np.linalg.norm(w_km_s)
+    rp = rho_km - (rho_km @ wh) * wh
+    n = np.linalg.norm(rp)
+    x = rp / n if n > 0 else np.cross(wh, [0.0, 0.0, 1.0]) / np.linalg.norm(np.cross(wh, [0.0, 0.0, 1.0]))
+    y = np.cross(wh, x)
+    return np.stack([x, y])
+
+
+def project(rho_km, w_km_s, cov_combined_km2) -> PlaneGeometry:
+    """Combined position covariance (3x3, km^2, inertial) -> principal axes in the plane.
+    The two objects' errors are taken as uncorrelated, so the combined covariance is the sum."""
+    B = plane_basis(np.asarray(rho_km, float), np.asarray(w_km_s, float))
+    c2 = B @ np.asarray(cov_combined_km2, float) @ B.T * 1e6
+    miss2 = B @ np.asarray(rho_km, float) * 1e3
+    vals, vecs = np.linalg.eigh(c2)
+    vals = np.maximum(vals, 1e-12)
+    m = vecs.T @ miss2
+    return PlaneGeometry(float(m[0]), float(m[1]), float(np.sqrt(vals[0])), float(np.sqrt(vals[1])),
+                         float(np.linalg.norm(miss2)), c2, B)
+
+
+def ric_to_inertial_cov(cov_ric: np.ndarray, r_km, v_km_s) -> np.ndarray:
+    from ..screening.ric import ric_basis
+
+    Bm = ric_basis(np.asarray(r_km, float), np.asarray(v_km_s, float))
+    return Bm.T @ np.asarray(cov_ric, float) @ Bm
