@@ -176,7 +176,7 @@ def _segment(lines: list[str], i: int, path: str) -> tuple[OemSegment, int]:
     seg = OemSegment(
         object_name=meta["OBJECT_NAME"][0], object_id=meta["OBJECT_ID"][0],
         center="EARTH", frame=frame, time_system=ts, start_jd=start_jd,
-        t_s=np.array(t_list) + 0.0 * start_fr, r_km=rv[:, :3], v_km_s=rv[:, 3:],
+        t_s=np.array(t_list), r_km=rv[:, :3], v_km_s=rv[:, 3:],
         useable_start_s=max(useable_start, t_list[0]), useable_stop_s=min(useable_stop, t_list[-1]),
         interpolation=interp, degree=max(1, degree), covariances=covs, line=meta_line,
     )

@@ -272,9 +272,5 @@ def gather(req: ScreeningRequest, results: Sequence[TaskResult], wall_s: float) 
     return ScreeningResult(encs, unusable, stats, req)
 
 
-def miss_in_volume(e: Encounter, volume: Volume) -> bool:
-    return bool(volume.contains(np.array([e.radial_km, e.in_track_km, e.cross_track_km])))
-
-
 __all__ = ["ScreeningRequest", "ScreeningResult", "Task", "TaskResult", "Cancelled",
            "plan_tasks", "run_task", "screen", "gather", "to_ric"]
