@@ -20,7 +20,7 @@ from .frames import to_teme
 from .orbit import OrbitSize, orbit_from_mean_motion
 from .sgp4_batch import Sgp4Batch
 
-MU = 398600.4418
+from ..constants import MU_EARTH_KM3_S2 as MU  # IERS value (one definition, in constants)
 
 
 @dataclasses.dataclass
