@@ -45,6 +45,21 @@ def main() -> None:
         engineered.append(sec)
     background = synth.background_catalog(
         4000, jd0, fr0, seed=SEED, id_of=lambda k: int_to_alpha5(320000 + k), age_days=(0.1, 2.5))
+    # older element sets of the engineered objects, 1-3 days before their current epoch, with
+    # errors that grow with age (so the history-based covariance has something to fit, and a
+    # run with catalog.as_of set earlier sees the older predictions)
+    with open(os.path.join(HERE, "catalog-history.tle"), "w") as fh:
+        fh.write("# Older synthetic element sets of the engineered demo objects (invented).\n")
+        for rec in engineered:
+            for back in (3.0, 2.0, 1.0):
+                e_jd, e_fr = rec.epoch_jd, rec.epoch_fr - back
+                r, v = synth.state_of(rec, e_jd, e_fr)
+                rhat = r / np.linalg.norm(r)
+                that = v / np.linalg.norm(v)
+                r = r + rhat * rng.normal(0, 0.03 + 0.02 * back) + that * rng.normal(0, 0.15 + 0.25 * back)
+                old = synth.fit_elements(r, v, e_jd, e_fr, rec.catalog_id, rec.name)
+                l1, l2 = format_tle(dataclasses.replace(old, intl_designator="26999Z"))
+                fh.write(f"{rec.name}\n{l1}\n{l2}\n")
     with open(os.path.join(HERE, "catalog.tle"), "w") as fh:
         fh.write("# Synthetic background catalog for the screener demo (invented objects).\n")
         for rec in engineered + background:
@@ -73,10 +88,20 @@ def main() -> None:
     t_s = np.arange(0.0, 4 * 86400.0 + 1, 60.0)
     sat = rec3.make_satrec()
     e, r, v = sat.sgp4_array(np.full(len(t_s), jd0), fr0 + t_s / 86400.0)
+    # covariance every 6 h in RTN: 15 m radial, 60 m in-track growing 40 m/day, 15 m cross-track
+    from screener.elements import OemCovariance
+    covs = []
+    for h in range(0, 4 * 24 + 1, 6):
+        s_km = np.array([0.015, 0.060 + 0.040 * h / 24.0, 0.015])
+        c = np.zeros((6, 6))
+        c[:3, :3] = np.diag(s_km ** 2)
+        c[3:, 3:] = np.diag([1e-8, 1e-8, 1e-8])
+        covs.append(OemCovariance(jd0, fr0 + h / 24.0, "RTN", c))
     write_oem(os.path.join(HERE, "larkspur-3.oem"), "LARKSPUR-3", "2026-903A", jd0,
               fr0 * 86400.0 + t_s, r, v, frame="TEME", originator="LARKSPUR ORBITAL WORKS",
-              creation="2026-12-01T18:00:00.000000")
-    print(f"wrote {len(fleet)} fleet OMMs, {len(engineered) + len(background)} catalog TLEs, 1 OEM")
+              covariance=covs, creation="2026-12-01T18:00:00.000000")
+    print(f"wrote {len(fleet)} fleet OMMs, {len(engineered) + len(background)} catalog TLEs, "
+          f"{3 * len(engineered)} older TLEs, 1 OEM with covariance")
 
 
 if __name__ == "__main__":

@@ -1,9 +1,16 @@
-"""`screener` command line.  Every bad input ends in one line on stderr and a non-zero exit."""
+"""`screener` command line.  Every bad input ends in one line on stderr and a non-zero exit.
+
+Exit codes (for cron):
+  0  ran fine
+  2  bad input or configuration (the message names file, line and reason)
+  3  an event at the "act" attention level was found (only with --fail-on-act)
+  4  the store could not be opened or written
+  130 interrupted (nothing of the interrupted run is stored)
+"""
 
 from __future__ import annotations
 
 import argparse
-import json
 import os
 import sys
 
@@ -12,81 +19,107 @@ from ..errors import ScreenerError
 
 EXIT_OK = 0
 EXIT_BAD_INPUT = 2
+EXIT_ACT = 3
+EXIT_STORE = 4
+EXIT_INTERRUPTED = 130
 
 
-def _screen_args(p: argparse.ArgumentParser) -> None:
-    p.add_argument("--catalog", nargs="+", required=True, metavar="PATH",
+class StoreError(ScreenerError):
+    """The store is unusable (exit 4)."""
+
+
+def add_screen_args(p: argparse.ArgumentParser, required: bool = True) -> None:
+    p.add_argument("--catalog", nargs="+", required=required, metavar="PATH",
                    help="element-set files or folders (TLE, OMM KVN/XML/CSV/JSON)")
     p.add_argument("--primaries", nargs="+", metavar="PATH",
                    help="own fleet: element sets or CCSDS OEM files; omit for all-vs-all")
-    p.add_argument("--start", required=True, help="window start, ISO 8601 UTC")
+    p.add_argument("--start", required=required, help="window start, ISO 8601 UTC (or 'today', 'now')")
     p.add_argument("--days", type=float, default=3.0, help="window length in days (default 3)")
     vol = p.add_mutually_exclusive_group()
     vol.add_argument("--radius-km", type=float, help="spherical screening volume radius (default 5)")
     vol.add_argument("--ric-km", help="RIC ellipsoid half-sizes R,I,C in km")
+    p.add_argument("--hbr-m", type=float, help="hard-body radius for every pair, m (default 10: "
+                   "two 5 m circumscribing spheres)")
     p.add_argument("--json", metavar="PATH", help="write encounters as JSON")
     p.add_argument("--strict", action="store_true", help="stop at the first bad record")
     p.add_argument("--max-age-days", type=float, default=7.0,
                    help="flag element sets older than this at the start (default 7)")
     p.add_argument("--workers", type=int, default=min(2, os.cpu_count() or 1),
                    help="local processes (default: up to 2)")
-    p.add_argument("--quiet", action="store_true", help="no summary on stdout")
+    p.add_argument("--quiet", action="store_true", help="no summary or progress")
+
+
+def config_from_args(args):
+    from ..config import config_from_options
+    from .load import parse_volume
+
+    if not (args.days > 0):
+        raise ScreenerError("--days must be positive")
+    if args.hbr_m is not None and not args.hbr_m > 0:
+        raise ScreenerError("--hbr-m must be positive")
+    if args.start not in ("today", "now"):
+        from ..timeutil import parse_start
+
+        parse_start(args.start)
+    vol = parse_volume(args.radius_km, args.ric_km)
+    ric = tuple(vol.half_km) if args.ric_km else None
+    return config_from_options(args.catalog, args.primaries, args.start, args.days,
+                               args.radius_km, ric, max(1, args.workers), args.max_age_days,
+                               args.strict, args.hbr_m)
 
 
 def cmd_screen(args) -> int:
-    from ..screening import screen
-    from .load import build_request
+    from ..pipeline import execute
+    from .load import warn
+    from .progress import make_progress
     from .summary import render
 
-    req = build_request(args)
-    res = screen(req, progress=_progress(args))
+    cfg = config_from_args(args)
+    prog = make_progress(args.quiet)
+    try:
+        out = execute(cfg, progress=prog, warn=None if args.quiet else warn)
+    finally:
+        if prog:
+            prog.close()
     if args.json:
-        _write_json(args.json, res)
+        write_result_json(args.json, out.result)
     if not args.quiet:
-        print(render(res))
+        print(render(out.result, thresholds=cfg.thresholds))
     return EXIT_OK
 
 
-def _progress(args):
-    if args.quiet or not sys.stderr.isatty():
-        return None
-
-    def show(stage, done, total):
-        print(f"\r{stage}: {done}/{total} tasks", end="" if done < total else "\n",
-              file=sys.stderr, flush=True)
-
-    return show
-
-
-def _write_json(path, res) -> None:
+def write_result_json(path, res, extra: dict | None = None) -> None:
+    from ..exports.tables import write_json
     from ..timeutil import iso_z, jd_to_datetime
 
     req = res.request
-    doc = {
-        "caution": CAUTION,
+    head = {
         "software": f"screener {__version__}",
         "window_start": iso_z(jd_to_datetime(req.jd0, req.fr0), 3),
         "window_days": req.duration_s / 86400.0,
         "volume": req.volume.describe(),
         "unusable_objects": res.unusable,
-        "encounters": [e.to_json() for e in res.encounters],
+        **(extra or {}),
     }
     try:
-        with open(path, "w", encoding="utf-8") as fh:
-            json.dump(doc, fh, indent=1)
+        write_json(path, head, [e.to_json() for e in res.encounters])
     except OSError as exc:
         raise ScreenerError(f"cannot write {path}: {exc.strerror}") from None
 
 
 def make_parser() -> argparse.ArgumentParser:
-    ap = argparse.ArgumentParser(prog="screener", description="Conjunction screening. " + CAUTION)
+    ap = argparse.ArgumentParser(prog="screener", description="Conjunction screening. " + CAUTION,
+                                 epilog="exit codes: 0 ok, 2 bad input or configuration, 3 act-level "
+                                        "event (with --fail-on-act), 4 store error, 130 interrupted")
     ap.add_argument("--version", action="version", version=f"screener {__version__}")
     sub = ap.add_subparsers(dest="command", required=True)
-    p = sub.add_parser("screen", help="screen primaries against a catalog (or all-vs-all)")
-    _screen_args(p)
+    p = sub.add_parser("screen", help="one-off screening of primaries against a catalog (or all-vs-all)")
+    add_screen_args(p)
     p.set_defaults(func=cmd_screen)
     from .risk_cmd import add_risk_parser
+    from .run_cmd import add_run_parsers
 
+    add_run_parsers(sub)
     add_risk_parser(sub)
     return ap
 
@@ -96,12 +129,15 @@ def main(argv=None) -> int:
     args = ap.parse_args(argv)
     try:
         return args.func(args)
+    except StoreError as exc:
+        print(f"screener: store error: {exc}", file=sys.stderr)
+        return EXIT_STORE
     except ScreenerError as exc:
         print(f"screener: error: {exc}", file=sys.stderr)
         return EXIT_BAD_INPUT
     except KeyboardInterrupt:
-        print("screener: interrupted", file=sys.stderr)
-        return 130
+        print("screener: interrupted; nothing of this run was stored", file=sys.stderr)
+        return EXIT_INTERRUPTED
 
 
 if __name__ == "__main__":

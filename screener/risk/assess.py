@@ -31,6 +31,7 @@ def assess(r1_km, v1_km_s, cov1_rtn_km2, r2_km, v2_km_s, cov2_rtn_km2, hbr_m: fl
         "dilution_region": in_dilution_region(*args),
         "miss_km": float(np.linalg.norm(rho)), "relative_speed_km_s": float(np.linalg.norm(w)),
         "sigma_major_m": max(g.sx_m, g.sy_m), "sigma_minor_m": min(g.sx_m, g.sy_m),
+        "plane_xm_m": g.xm_m, "plane_ym_m": g.ym_m, "plane_sx_m": g.sx_m, "plane_sy_m": g.sy_m,
         "hbr_m": hbr_m, "covariance_source": covariance_source,
         "covariance_note": "objects' errors assumed uncorrelated (combined = sum)",
     }

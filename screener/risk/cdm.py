@@ -119,11 +119,14 @@ def read_cdm(path: str, text: str | None = None) -> Cdm:
     return Cdm(path, header, relative, out)
 
 
-def write_cdm(path: str, header: dict, relative: dict, objects: list[dict]) -> None:
-    """objects: two dicts with OBJECT_META keys plus 'r_km', 'v_km_s', 'cov_rtn_m' (6x6)."""
-    units = {"MISS_DISTANCE": "m", "RELATIVE_SPEED": "m/s", "X": "km", "Y": "km", "Z": "km",
+def write_cdm(path: str, header: dict, relative: dict, objects: list[dict],
+              comments: list[str] = ()) -> None:
+    """objects: two dicts with OBJECT_META keys plus 'r_km', 'v_km_s', 'cov_rtn_m' (6x6).
+    comments go after the header as COMMENT lines (the standard allows them there)."""
+    units = {"MISS_DISTANCE": "m", "RELATIVE_SPEED": "m/s", "COLLISION_PROBABILITY": None, "X": "km", "Y": "km", "Z": "km",
              "X_DOT": "km/s", "Y_DOT": "km/s", "Z_DOT": "km/s"}
     lines = [f"{k:<36}= {header[k]}" for k in HEADER]
+    lines += [f"COMMENT {c}" for c in comments]
     for k, v in relative.items():
         u = units.get(k) or ("m" if k.startswith("RELATIVE_POSITION") else
                              "m/s" if k.startswith("RELATIVE_VELOCITY") else None)

@@ -11,6 +11,8 @@ from ..timeutil import iso_z, jd_to_datetime
 from .ric import to_ric
 
 SLOW_RELATIVE_SPEED_KM_S = 0.1  # below this the pass is slow: entry/exit times are reported
+PROFILE_SAMPLES = 61
+PROFILE_REACH_KM = 20.0         # the range profile goes out to about this range either side
 
 
 @dataclasses.dataclass
@@ -38,6 +40,13 @@ class Encounter:
     primary_v_km_s: tuple = ()
     secondary_r_km: tuple = ()
     secondary_v_km_s: tuple = ()
+    profile_half_s: float = 0.0     # range profile spans TCA +- this
+    range_profile_km: tuple = ()    # PROFILE_SAMPLES ranges, evenly spaced over the span
+    risk: dict = dataclasses.field(default_factory=dict)   # filled by the risk layer
+
+    @property
+    def pc(self) -> float:
+        return float(self.risk.get("pc", 0.0) or 0.0)
 
     @property
     def tca(self) -> _dt.datetime:
@@ -67,6 +76,9 @@ class Encounter:
             "volume_entry": self._iso(self.entry_s), "volume_exit": self._iso(self.exit_s),
             "primary_state_teme": [*self.primary_r_km, *self.primary_v_km_s],
             "secondary_state_teme": [*self.secondary_r_km, *self.secondary_v_km_s],
+            "profile_half_s": self.profile_half_s,
+            "range_profile_km": list(self.range_profile_km),
+            **self.risk,
         }
 
 
@@ -108,3 +120,14 @@ def fill_altitudes(encounters: list[Encounter]) -> None:
     for k, e in enumerate(encounters):
         e.primary_alt_km = float(h[k])
         e.secondary_alt_km = float(h[n + k])
+
+
+def add_range_profile(pop, e: Encounter, i: int, j: int) -> None:
+    """Sample range around TCA for plots: +-(PROFILE_REACH_KM / speed), 30 s to 1800 s."""
+    half = float(np.clip(PROFILE_REACH_KM / max(e.relative_speed_km_s, 1e-6), 30.0, 1800.0))
+    t = e.tca_s + np.linspace(-half, half, PROFILE_SAMPLES)
+    r, _, code = pop.states(e.window_jd, e.window_fr, t, rows=[i, j])
+    rng = np.linalg.norm(r[1] - r[0], axis=1)
+    rng[(code[0] != 0) | (code[1] != 0)] = np.nan
+    e.profile_half_s = half
+    e.range_profile_km = tuple(float(x) for x in rng)

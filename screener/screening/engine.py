@@ -22,7 +22,8 @@ from ..elements.record import ElementSet
 from ..errors import ScreenerError
 from ..propagation import codes
 from ..propagation.ephemeris import Population
-from .encounter import SLOW_RELATIVE_SPEED_KM_S, Encounter, fill_altitudes, make_encounter
+from .encounter import (SLOW_RELATIVE_SPEED_KM_S, Encounter, add_range_profile, fill_altitudes,
+                        make_encounter)
 from .filters import apogee_perigee_mask, bounds_array, radial_bounds_km
 from .refine import brackets_from_candidates, crossing_times, solve_tca
 from .ric import to_ric
@@ -158,6 +159,7 @@ def run_task(task: Task) -> TaskResult:
         if e.relative_speed_km_s < SLOW_RELATIVE_SPEED_KM_S:
             e.entry_s, e.exit_s = crossing_times(pop, b.i, b.j, task.jd0, task.fr0, tca,
                                                  task.volume, 0.0, task.window_s)
+        add_range_profile(pop, e, b.i, b.j)
         out.append(e)
     stats["refine_s"] = time.perf_counter() - t_ref
     return TaskResult(_dedupe(out), unusable, stats)

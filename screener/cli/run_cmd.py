@@ -1,0 +1,131 @@
+"""`screener run`, `init-config`, `export` and `tui`: the nightly, store-backed commands."""
+
+from __future__ import annotations
+
+import json
+import os
+import sys
+
+from ..errors import ScreenerError
+
+
+def add_run_parsers(sub) -> None:
+    from .main import add_screen_args
+
+    p = sub.add_parser("run", help="run a configured screening and commit it to the store")
+    p.add_argument("--config", metavar="PATH", help="TOML configuration (see init-config)")
+    p.add_argument("--store", metavar="PATH", help="store file (default: $SCREENER_STORE or the XDG data dir)")
+    p.add_argument("--fail-on-act", action="store_true",
+                   help="exit 3 when any event reaches the act level (for cron alerting)")
+    p.add_argument("--no-exports", action="store_true", help="skip the configured exports")
+    g = p.add_argument_group("one-off options (instead of --config)")
+    add_screen_args(g, required=False)
+    p.set_defaults(func=cmd_run)
+
+    p = sub.add_parser("init-config", help="write a commented starter configuration")
+    p.add_argument("path")
+    p.add_argument("--fleet", nargs="+", metavar="PATH", help="fleet files to put in it")
+    p.add_argument("--catalog", nargs="+", metavar="PATH", help="catalog sources to put in it")
+    p.add_argument("--force", action="store_true", help="overwrite an existing file")
+    p.set_defaults(func=cmd_init)
+
+    p = sub.add_parser("export", help="export a stored run: JSON, CSV, CDMs, report")
+    p.add_argument("--store", metavar="PATH")
+    p.add_argument("--run", type=int, help="run id (default: the latest)")
+    p.add_argument("--out", required=True, metavar="FOLDER")
+    p.add_argument("--cdm", choices=("none", "act", "watch", "all"), default="act",
+                   help="CDM files for events at this level or above (default act)")
+    p.add_argument("--report", choices=("none", "text", "html"), default="text")
+    p.set_defaults(func=cmd_export)
+
+    p = sub.add_parser("tui", help="triage stored runs in the terminal")
+    p.add_argument("--store", metavar="PATH")
+    p.add_argument("--config", metavar="PATH", help="configuration for new screenings started from the TUI")
+    p.set_defaults(func=cmd_tui)
+
+
+def open_store(path, create=True):
+    from ..store import Store
+    from .main import StoreError
+
+    try:
+        return Store(path, create=create)
+    except ScreenerError as exc:
+        raise StoreError(str(exc)) from None
+
+
+def cmd_run(args) -> int:
+    from ..config import load_config
+    from ..risk.attention import ACT
+    from ..pipeline import execute
+    from .load import warn
+    from .main import EXIT_ACT, EXIT_OK, config_from_args, write_result_json
+    from .progress import make_progress
+    from .summary import render
+
+    if args.config:
+        if args.catalog or args.primaries or args.start:
+            raise ScreenerError("give either --config or the one-off options (--catalog, --start, ...), not both")
+        cfg = load_config(args.config)
+    else:
+        if not args.catalog or not args.start:
+            raise ScreenerError("run needs --config PATH, or --catalog and --start for a one-off run")
+        cfg = config_from_args(args)
+    store = open_store(args.store or cfg.store)
+    prog = make_progress(args.quiet)
+    try:
+        out = execute(cfg, store=store, progress=prog, warn=None if args.quiet else warn)
+    finally:
+        if prog:
+            prog.close()
+    try:
+        exports = []
+        if cfg.outputs.folder and not args.no_exports:
+            from ..exports import export_run
+            from .summary import render_diff
+
+            folder = os.path.join(cfg.outputs.folder, f"run-{out.run_id}")
+            exports = export_run(store, out.run_id, folder, cfg.outputs.json, cfg.outputs.csv,
+                                 cfg.outputs.cdm, cfg.outputs.report, render_diff(out.diff))
+        if args.json:
+            write_result_json(args.json, out.result, {"run_id": out.run_id, "store": store.path,
+                                                      "changes": out.diff.to_json()})
+        if not args.quiet:
+            print(render(out.result, thresholds=cfg.thresholds, diff=out.diff))
+            print(f"\nStored as run {out.run_id} in {store.path}; log {out.log_path}")
+            if exports:
+                print(f"Exports: {len(exports)} files in {os.path.dirname(exports[0]) if len(exports) == 1 else folder}")
+    finally:
+        store.close()
+    n_act = sum(1 for e in out.result.encounters if e.risk.get("attention") == ACT)
+    if args.fail_on_act and n_act:
+        print(f"screener: {n_act} event(s) at the act level", file=sys.stderr)
+        return EXIT_ACT
+    return EXIT_OK
+
+
+def cmd_init(args) -> int:
+    from ..config import write_starter
+
+    write_starter(args.path, args.fleet, args.catalog, args.force)
+    print(f"wrote {args.path}; edit it, then: screener run --config {args.path}")
+    return 0
+
+
+def cmd_export(args) -> int:
+    from ..exports import export_run
+
+    store = open_store(args.store, create=False)
+    try:
+        written = export_run(store, args.run, args.out, cdm=args.cdm, report=args.report)
+    finally:
+        store.close()
+    for p in written:
+        print(p)
+    return 0
+
+
+def cmd_tui(args) -> int:
+    from ..tui import run_tui
+
+    return run_tui(store_path=args.store, config_path=args.config)

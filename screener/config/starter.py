@@ -1,0 +1,86 @@
+"""`screener init-config PATH`: a commented starter configuration that loads as written."""
+
+from __future__ import annotations
+
+import os
+
+from ..errors import ConfigError
+
+STARTER = '''\
+# screener configuration: one recurring screening (e.g. run nightly from cron with
+#   screener run --config THIS_FILE --quiet --fail-on-act).
+# Relative paths are taken from this file's folder.  Unknown keys are errors.
+# Results are advisory: they do not replace your procedures, the official screening
+# service, local regulation or licensed practice.
+
+[run]
+name = "nightly"
+start = "today"              # "today" = 00:00 UTC of the run day, "now", or ISO 8601 UTC
+window_days = 3.0
+workers = 2                  # local processes
+max_elset_age_days = 7.0     # older element sets are screened but flagged
+strict = false               # true: stop at the first bad record instead of skipping it
+
+[fleet]
+# Own spacecraft: element sets (TLE, OMM KVN/XML/CSV/JSON) and CCSDS OEM ephemerides.
+# An OEM replaces the element set of the same object.  Leave empty for catalog-vs-catalog.
+files = {fleet}
+default_radius_m = 5.0       # circumscribing-sphere radius; HBR = sum of both objects' radii
+
+# [fleet.objects."900000001"]
+# radius_m = 6.5
+# maneuverable = true
+
+[catalog]
+sources = {catalog}          # files or folders; the newest element set per object wins
+default_radius_m = 5.0
+
+[volume]
+shape = "sphere"             # sphere | ellipsoid | box (RIC of the primary)
+radius_km = 5.0
+# ric_km = [1.0, 10.0, 2.0]   # half-sizes R, I, C for ellipsoid and box
+
+[covariance]
+# Preference: OEM covariance > configured here > fitted from element-set history >
+# an assumed regime model (Pc then labelled "assumed covariance").
+use_history = true
+# [covariance.objects."900000001"]
+# sigma_rtn_km = [0.02, 0.10, 0.02]
+# growth_rtn_km_per_day = [0.005, 0.05, 0.005]
+# [covariance.regimes.LEO]
+# sigma_rtn_km = [0.1, 0.5, 0.15]
+# growth_rtn_km_per_day = [0.05, 1.0, 0.05]
+
+[thresholds]
+act_pc = 1e-4                # default (common practice): plan a response
+watch_pc = 1e-5              # default (common practice): follow closely
+
+[events]
+tca_tolerance_s = 600.0      # same pair, TCAs this close across runs: one event
+
+[outputs]
+folder = "screener-out"      # per-run exports go to FOLDER/run-<id>/
+json = true
+csv = true
+cdm = "act"                  # CDM files for events at: none | act | watch | all
+report = "text"              # none | text | html
+
+# [store]
+# path = "screener.sqlite"   # default: $SCREENER_STORE or $XDG_DATA_HOME/screener/store.sqlite
+'''
+
+
+def write_starter(path: str, fleet: list[str] | None = None, catalog: list[str] | None = None,
+                  force: bool = False) -> None:
+    if os.path.exists(path) and not force:
+        raise ConfigError(f"{path} exists; not overwriting it (use --force)")
+
+    def lst(xs):
+        return "[" + ", ".join(f'"{x}"' for x in xs) + "]"
+
+    text = STARTER.format(fleet=lst(fleet or ["fleet.json"]), catalog=lst(catalog or ["catalog.tle"]))
+    try:
+        with open(path, "w", encoding="utf-8") as fh:
+            fh.write(text)
+    except OSError as exc:
+        raise ConfigError(f"cannot write {path}: {exc.strerror}") from None

@@ -1,0 +1,39 @@
+"""JSON and CSV of encounters.  Field names are stable: the `screen` JSON fields plus risk."""
+
+from __future__ import annotations
+
+import csv
+import json
+import math
+
+from .. import CAUTION
+
+CSV_FIELDS = ("event_id", "attention", "pc", "log10_pc", "pc_max", "pc_method", "assumed_covariance",
+              "dilution_region", "covariance_source", "hbr_m", "primary", "primary_name", "secondary",
+              "secondary_name", "tca", "miss_km", "radial_km", "in_track_km", "cross_track_km",
+              "relative_speed_km_s", "crossing_angle_deg", "primary_alt_km", "secondary_alt_km",
+              "primary_elset_age_days", "secondary_elset_age_days", "trend", "change")
+
+
+def _clean(x):
+    if isinstance(x, float) and not math.isfinite(x):
+        return None
+    if isinstance(x, dict):
+        return {k: _clean(v) for k, v in x.items()}
+    if isinstance(x, (list, tuple)):
+        return [_clean(v) for v in x]
+    return x
+
+
+def write_json(path: str, run_header: dict, encounters: list[dict]) -> None:
+    doc = {"caution": CAUTION, **run_header, "encounters": encounters}
+    with open(path, "w", encoding="utf-8") as fh:
+        json.dump(_clean(doc), fh, indent=1, allow_nan=False)
+
+
+def write_csv(path: str, encounters: list[dict]) -> None:
+    with open(path, "w", encoding="utf-8", newline="") as fh:
+        w = csv.writer(fh)
+        w.writerow(CSV_FIELDS)
+        for e in encounters:
+            w.writerow(["" if _clean(e.get(k)) is None else e.get(k) for k in CSV_FIELDS])

@@ -1,0 +1,110 @@
+"""Read a configuration's element sets and ephemerides; record what was read (with hashes)."""
+
+from __future__ import annotations
+
+import dataclasses
+import hashlib
+import os
+from typing import Callable
+
+from ..config import Config
+from ..elements import ElementSet, Oem, load_elements, read_oem, stale_records
+from ..elements.catalog import expand_paths
+from ..errors import ScreenerError
+
+MAX_LISTED = 20
+Warn = Callable[[str], None]
+
+
+@dataclasses.dataclass
+class Inputs:
+    catalog: list[ElementSet]
+    primaries: list[ElementSet]
+    oems: list[Oem]
+    history: dict[str, list[ElementSet]]
+    files: list[dict]                     # {"path", "sha256", "bytes", "role"}
+    bad_records: int = 0
+
+
+def file_digest(path: str) -> dict:
+    h = hashlib.sha256()
+    with open(path, "rb") as fh:
+        for block in iter(lambda: fh.read(1 << 20), b""):
+            h.update(block)
+    return {"path": os.path.abspath(path), "sha256": h.hexdigest(), "bytes": os.path.getsize(path)}
+
+
+def _is_oem(path: str) -> bool:
+    with open(path, "rb") as fh:
+        return "CCSDS_OEM_VERS" in fh.read(4096).decode("utf-8", "replace")
+
+
+def _read(paths, strict: bool, what: str, warn: Warn):
+    oems, others, files = [], [], []
+    for p in paths:
+        if not os.path.exists(p):
+            raise ScreenerError(f"{p}: no such file or folder ({what})")
+        if os.path.isfile(p) and _is_oem(p):
+            oems.append(read_oem(p))
+            files.append({**file_digest(p), "role": what})
+            continue
+        others.append(p)
+    for f in expand_paths(others):
+        files.append({**file_digest(f), "role": what})
+    report = load_elements(others, strict=strict) if others else None
+    if report:
+        for err in report.errors[:MAX_LISTED]:
+            warn(f"skipped: {err}")
+        if len(report.errors) > MAX_LISTED:
+            warn(f"... and {len(report.errors) - MAX_LISTED} more bad records")
+        for old, new in report.superseded[:3]:
+            warn(f"{old.catalog_id}: element set at {old.source} superseded by newer epoch at {new.source}")
+        if len(report.superseded) > 3:
+            warn(f"... and {len(report.superseded) - 3} more older element sets superseded (kept as "
+                 f"history for the covariance fit)")
+        warn(f"{what}: {report.summary()}")
+    records = report.records if report else []
+    if not records and not oems:
+        raise ScreenerError(f"no usable element sets in {', '.join(paths)} ({what})")
+    return records, oems, report, files
+
+
+def _as_of(report, as_of: str, warn: Warn) -> list[ElementSet]:
+    """Newest set per object with an epoch at or before as_of (histories trimmed to match)."""
+    from ..timeutil import datetime_to_jd, parse_start
+
+    jd, fr = datetime_to_jd(parse_start(as_of))
+    kept = []
+    for oid, sets in report.history.items():
+        sets[:] = [s for s in sets if (s.epoch_jd - jd) + (s.epoch_fr - fr) <= 0.0]
+        if sets:
+            kept.append(sets[-1])
+    warn(f"catalog as of {as_of}: {len(kept)} objects have an element set by then")
+    return kept
+
+
+def load_inputs(cfg: Config, jd0: float, fr0: float, warn: Warn) -> Inputs:
+    catalog, cat_oems, cat_rep, files = _read(cfg.catalog_sources, cfg.strict, "catalog", warn)
+    if cfg.catalog_as_of and cat_rep:
+        catalog = _as_of(cat_rep, cfg.catalog_as_of, warn)
+    if cat_oems:
+        raise ScreenerError("OEM files belong to the fleet (own-ship ephemerides), not the catalog")
+    primaries, oems, p_rep = [], [], None
+    if cfg.fleet_files:
+        primaries, oems, p_rep, p_files = _read(cfg.fleet_files, cfg.strict, "fleet", warn)
+        files += p_files
+    if oems:  # an own-ship ephemeris wins over an element set of the same object
+        oem_ids = {o.object_id for o in oems}
+        dropped = [r for r in primaries if r.catalog_id in oem_ids or r.intl_designator in oem_ids]
+        for r in dropped:
+            warn(f"{r.catalog_id} {r.name}: using its OEM ephemeris instead of the element set")
+        primaries = [r for r in primaries if r not in dropped]
+    for rec, age in stale_records(primaries + catalog, jd0, fr0, cfg.max_elset_age_days):
+        warn(f"stale: {rec.catalog_id} {rec.name} element set is {age:.1f} days old at the "
+             f"screening start (limit {cfg.max_elset_age_days:g}); screened, but check it")
+    history = {}
+    for rep in (cat_rep, p_rep):
+        if rep:
+            history.update(rep.history)
+    bad = sum(len(r.errors) for r in (cat_rep, p_rep) if r)
+    return Inputs(catalog, primaries, oems, history, files, bad)

@@ -1,0 +1,147 @@
+"""Execute one screening from a Config: inputs -> screening -> risk -> store.
+
+Progress goes to `progress(stage, done, total)`; stages are "loading", "screening", "risk",
+"storing".  `cancel` (anything with is_set()) stops the screening between tasks; nothing is
+stored for a cancelled run.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import datetime as dt
+import logging
+import os
+import time
+from typing import Callable
+
+from ..config import Config
+from ..errors import ScreenerError
+from ..risk.attach import attach_risk
+from ..risk.covariance import CovarianceSources
+from ..screening import ScreeningRequest, Volume, screen
+from ..timeutil import datetime_to_jd, iso_z, parse_start
+from .inputs import Inputs, load_inputs
+
+Progress = Callable[[str, int, int], None]
+
+
+@dataclasses.dataclass
+class RunOutcome:
+    config: Config
+    inputs: Inputs
+    result: object                   # ScreeningResult with risk attached
+    run_id: int | None = None
+    diff: object | None = None       # store.events.Diff
+    store_path: str | None = None
+    log_path: str | None = None
+    started_utc: str = ""
+
+
+def resolve_start(cfg: Config, now: dt.datetime) -> dt.datetime:
+    if cfg.start == "today":
+        return now.astimezone(dt.timezone.utc).replace(hour=0, minute=0, second=0, microsecond=0)
+    if cfg.start == "now":
+        return now.astimezone(dt.timezone.utc).replace(microsecond=0)
+    return parse_start(cfg.start)
+
+
+def volume_of(cfg: Config) -> Volume:
+    if cfg.volume_shape == "sphere":
+        return Volume.sphere(cfg.radius_km)
+    if cfg.volume_shape == "ellipsoid":
+        return Volume.ellipsoid(*cfg.ric_km)
+    return Volume.box(*cfg.ric_km)
+
+
+def build_request(cfg: Config, inputs: Inputs, jd0: float, fr0: float) -> ScreeningRequest:
+    return ScreeningRequest(catalog=inputs.catalog, primaries=inputs.primaries,
+                            primary_oems=inputs.oems, jd0=jd0, fr0=fr0,
+                            duration_s=cfg.window_days * 86400.0, volume=volume_of(cfg),
+                            workers=cfg.workers)
+
+
+def add_risk(cfg: Config, inputs: Inputs, result) -> None:
+    sources = CovarianceSources(oems=inputs.oems, configured=cfg.covariance.mapping(),
+                                history=inputs.history if cfg.covariance.use_history else None)
+    primary_ids = {r.catalog_id for r in inputs.primaries} | {o.object_id for o in inputs.oems}
+    attach_risk(result.encounters, sources,
+                radius_m=lambda oid: cfg.radius_m(oid, oid in primary_ids),
+                thresholds=cfg.thresholds)
+
+
+def open_log(folder: str, stamp: str) -> tuple[logging.Logger, str]:
+    logs = os.path.join(folder, "logs")
+    os.makedirs(logs, exist_ok=True)
+    path = os.path.join(logs, f"run-{stamp}.log")
+    log = logging.getLogger(f"screener.run.{stamp}.{id(path)}")
+    log.setLevel(logging.INFO)
+    log.propagate = False
+    h = logging.FileHandler(path, encoding="utf-8")
+    h.setFormatter(logging.Formatter("%(asctime)s %(levelname)s %(message)s"))
+    log.addHandler(h)
+    return log, path
+
+
+def execute(cfg: Config, store=None, progress: Progress | None = None, cancel=None,
+            now: dt.datetime | None = None, warn: Callable[[str], None] | None = None,
+            executor=None) -> RunOutcome:
+    """Run the screening described by cfg; commit it to `store` (a store.Store) if given."""
+    from .. import __version__
+
+    now = now or dt.datetime.now(dt.timezone.utc)
+    started = iso_z(dt.datetime.now(dt.timezone.utc), 3)
+    report = progress or (lambda stage, done, total: None)
+    log, log_path = (None, None)
+    if store is not None:
+        log, log_path = open_log(store.folder, dt.datetime.now(dt.timezone.utc).strftime("%Y%m%dT%H%M%S_%fZ"))
+
+    def note(msg: str) -> None:
+        if log:
+            log.info(msg)
+
+    def warned(msg: str) -> None:
+        note(msg)
+        if warn:
+            warn(msg)
+
+    try:
+        note(f"screener {__version__}; configuration {cfg.path or '(command-line options)'}")
+        start = resolve_start(cfg, now)
+        jd0, fr0 = datetime_to_jd(start)
+        note(f"window {iso_z(start, 3)} + {cfg.window_days:g} d")
+        report("loading", 0, 1)
+        t0 = time.perf_counter()
+        inputs = load_inputs(cfg, jd0, fr0, warned)
+        report("loading", 1, 1)
+        note(f"loaded {len(inputs.primaries) + len(inputs.oems)} primaries, {len(inputs.catalog)} "
+             f"catalog objects in {time.perf_counter() - t0:.1f} s")
+        req = build_request(cfg, inputs, jd0, fr0)
+        result = screen(req, progress=report, cancel=cancel, executor=executor)
+        note(f"screening: {len(result.encounters)} encounters, {result.stats.get('wall_s', 0):.1f} s")
+        report("risk", 0, 1)
+        add_risk(cfg, inputs, result)
+        report("risk", 1, 1)
+        out = RunOutcome(cfg, inputs, result, started_utc=started, log_path=log_path)
+        if store is not None:
+            from ..store.runs import commit_run
+
+            report("storing", 0, 1)
+            out.run_id, out.diff = commit_run(
+                store, name=cfg.name, config_snapshot=cfg.snapshot(), inputs_files=inputs.files,
+                result=result, started_utc=started, thresholds=cfg.thresholds,
+                tca_tolerance_s=cfg.event_tca_tolerance_s, log_path=log_path)
+            out.store_path = store.path
+            report("storing", 1, 1)
+            note(f"committed run {out.run_id} to {store.path}: {out.diff.counts()}")
+        return out
+    except ScreenerError as exc:
+        note(f"failed: {exc}")
+        raise
+    except KeyboardInterrupt:
+        note("interrupted; nothing stored for this run")
+        raise
+    finally:
+        if log:
+            for h in list(log.handlers):
+                h.close()
+                log.removeHandler(h)

@@ -1,0 +1,89 @@
+"""Attach risk figures (covariance source, Pc by method, max Pc, dilution, attention level)
+to the screening engine's encounters."""
+
+from __future__ import annotations
+
+import math
+from typing import Callable, Mapping, Sequence
+
+import numpy as np
+
+from ..screening.encounter import Encounter
+from .assess import assess
+from .attention import Thresholds
+from .covariance import CovarianceSources
+from .pc import cumulative
+
+# Common practice: hard-body radius = sum of the two circumscribing-sphere radii.  With
+# nothing configured each object is taken as a 5 m sphere, so the default HBR is 10 m.
+DEFAULT_OBJECT_RADIUS_M = 5.0
+# Short-encounter check (rough, from memory): the 2-D Pc assumes straight-line relative motion
+# while the objects are within the combined 5-sigma region; doubtful when that takes longer
+# than this, or when the pass is slower than 0.1 km/s.
+SHORT_ENCOUNTER_MAX_S = 600.0
+SLOW_PASS_KM_S = 0.1
+ASSUMED_LABEL = "assumed covariance"
+
+
+def _regime(r_km, v_km_s) -> str:
+    """Regime from the osculating state (two-body), same classes as OrbitSize.regime."""
+    from ..constants import MU_EARTH_KM3_S2, RE_WGS84_KM as re
+    from ..propagation.orbit import OrbitSize
+
+    r, v = np.asarray(r_km, float), np.asarray(v_km_s, float)
+    rn, vn = np.linalg.norm(r), np.linalg.norm(v)
+    a = 1.0 / (2.0 / rn - vn * vn / MU_EARTH_KM3_S2)
+    e_vec = ((vn * vn - MU_EARTH_KM3_S2 / rn) * r - (r @ v) * v) / MU_EARTH_KM3_S2
+    e = float(np.linalg.norm(e_vec))
+    if a <= 0:
+        return "HEO"
+    period = 2 * math.pi * math.sqrt(a ** 3 / MU_EARTH_KM3_S2)
+    return OrbitSize(a, period, a * (1 - e), a * (1 + e), a * (1 - e) - re, a * (1 + e) - re).regime
+
+
+def attach_risk(encounters: Sequence[Encounter], sources: CovarianceSources,
+                radius_m: Callable[[str], float] | None = None,
+                thresholds: Thresholds = Thresholds(),
+                aliases: Mapping[str, Sequence[str]] | None = None) -> None:
+    """Fill e.risk for every encounter.  radius_m(object_id) gives each object's
+    circumscribing-sphere radius (default DEFAULT_OBJECT_RADIUS_M)."""
+    radius_m = radius_m or (lambda _id: DEFAULT_OBJECT_RADIUS_M)
+    aliases = aliases or {}
+    for e in encounters:
+        tjd, tfr = e.tca_jd
+        est = []
+        for oid, r, v, age in ((e.primary, e.primary_r_km, e.primary_v_km_s, e.primary_age_days),
+                               (e.secondary, e.secondary_r_km, e.secondary_v_km_s, e.secondary_age_days)):
+            est.append(sources.estimate(oid, _regime(r, v), age, tjd, tfr, aliases.get(oid, ())))
+        hbr_m = radius_m(e.primary) + radius_m(e.secondary)
+        assumed_any = any(x.assumed for x in est)
+        label = ASSUMED_LABEL if assumed_any else " + ".join(dict.fromkeys(x.source for x in est))
+        out = assess(e.primary_r_km, e.primary_v_km_s, est[0].cov_rtn_km2, e.secondary_r_km,
+                     e.secondary_v_km_s, est[1].cov_rtn_km2, hbr_m, label)
+        sigma3d_km = math.sqrt(max(np.linalg.eigvalsh(est[0].cov_rtn_km2 + est[1].cov_rtn_km2)))
+        t_enc_s = 2.0 * (5.0 * sigma3d_km + hbr_m / 1000.0) / max(e.relative_speed_km_s, 1e-9)
+        short_ok = e.relative_speed_km_s >= SLOW_PASS_KM_S and t_enc_s <= SHORT_ENCOUNTER_MAX_S
+        level, reason = thresholds.level(out["pc"], out["pc_max"], out["dilution_region"])
+        out.update({
+            "assumed_covariance": assumed_any,
+            "primary_covariance": est[0].label(), "secondary_covariance": est[1].label(),
+            "primary_sigma_rtn_km": est[0].sigma_rtn_km,
+            "secondary_sigma_rtn_km": est[1].sigma_rtn_km,
+            "primary_cov_rtn_km2": est[0].cov_rtn_km2.tolist(),
+            "secondary_cov_rtn_km2": est[1].cov_rtn_km2.tolist(),
+            "short_encounter_ok": short_ok,
+            "encounter_duration_s": t_enc_s,
+            "attention": level, "attention_reason": reason,
+        })
+        if not short_ok:
+            out["pc_note"] = ("2-D short-encounter Pc doubtful: slow pass or long time in the "
+                              "combined uncertainty region")
+        e.risk = out
+
+
+def cumulative_by_primary(encounters: Sequence[Encounter]) -> dict[str, float]:
+    """1 - prod(1 - Pc_i) over each primary's encounters in the window."""
+    by: dict[str, list[float]] = {}
+    for e in encounters:
+        by.setdefault(e.primary, []).append(e.pc)
+    return {k: cumulative(v) for k, v in sorted(by.items())}

@@ -1,0 +1,165 @@
+"""Opening the store: location, WAL mode, schema version and migrations.
+
+A run is written in one transaction (see runs.py), so an interrupted run (Ctrl-C, SIGTERM,
+kill -9, power loss) leaves the previous runs intact and no half run behind; readers in WAL
+mode see either the old or the new state and never block the writer.
+"""
+
+from __future__ import annotations
+
+import os
+import sqlite3
+
+from ..errors import ScreenerError
+
+SCHEMA_VERSION = 1
+ENV_STORE = "SCREENER_STORE"
+
+# Each entry migrates from version k to k+1.  Never edit a released step; append a new one.
+MIGRATIONS: list[str] = [
+    """
+    CREATE TABLE runs (
+        id INTEGER PRIMARY KEY,
+        name TEXT NOT NULL,
+        started_utc TEXT NOT NULL,
+        finished_utc TEXT NOT NULL,
+        window_start_utc TEXT NOT NULL,
+        window_start_unix_s REAL NOT NULL,
+        window_days REAL NOT NULL,
+        volume TEXT NOT NULL,
+        mode TEXT NOT NULL,
+        software_version TEXT NOT NULL,
+        config_json TEXT NOT NULL,
+        inputs_json TEXT NOT NULL,
+        stats_json TEXT NOT NULL,
+        thresholds_json TEXT NOT NULL,
+        n_primaries INTEGER NOT NULL,
+        n_secondaries INTEGER NOT NULL,
+        n_encounters INTEGER NOT NULL,
+        log_path TEXT
+    );
+    CREATE TABLE elsets (
+        run_id INTEGER NOT NULL REFERENCES runs(id),
+        object_id TEXT NOT NULL,
+        name TEXT NOT NULL,
+        role TEXT NOT NULL,
+        kind TEXT NOT NULL,
+        epoch_utc TEXT NOT NULL,
+        source TEXT NOT NULL,
+        line1 TEXT,
+        line2 TEXT,
+        PRIMARY KEY (run_id, object_id, role)
+    );
+    CREATE TABLE events (
+        id INTEGER PRIMARY KEY,
+        primary_id TEXT NOT NULL,
+        secondary_id TEXT NOT NULL,
+        first_run_id INTEGER NOT NULL,
+        last_run_id INTEGER NOT NULL,
+        last_tca_unix_s REAL NOT NULL
+    );
+    CREATE INDEX events_pair ON events(primary_id, secondary_id);
+    CREATE TABLE encounters (
+        id INTEGER PRIMARY KEY,
+        run_id INTEGER NOT NULL REFERENCES runs(id),
+        event_id INTEGER NOT NULL REFERENCES events(id),
+        primary_id TEXT NOT NULL,
+        primary_name TEXT NOT NULL,
+        secondary_id TEXT NOT NULL,
+        secondary_name TEXT NOT NULL,
+        tca_utc TEXT NOT NULL,
+        tca_unix_s REAL NOT NULL,
+        miss_km REAL NOT NULL,
+        radial_km REAL NOT NULL,
+        in_track_km REAL NOT NULL,
+        cross_track_km REAL NOT NULL,
+        relative_speed_km_s REAL NOT NULL,
+        pc REAL NOT NULL,
+        log10_pc REAL,
+        pc_max REAL NOT NULL,
+        attention TEXT NOT NULL,
+        attention_rank INTEGER NOT NULL,
+        covariance_source TEXT NOT NULL,
+        dilution INTEGER NOT NULL,
+        trend TEXT NOT NULL,
+        change TEXT NOT NULL,
+        data_json TEXT NOT NULL
+    );
+    CREATE INDEX encounters_run_rank ON encounters(run_id, pc DESC, miss_km);
+    CREATE INDEX encounters_event ON encounters(event_id, run_id);
+    """,
+]
+
+
+def default_store_path() -> str:
+    """$SCREENER_STORE, else $XDG_DATA_HOME/screener/store.sqlite (~/.local/share/...)."""
+    if os.environ.get(ENV_STORE):
+        return os.environ[ENV_STORE]
+    base = os.environ.get("XDG_DATA_HOME") or os.path.join(os.path.expanduser("~"), ".local", "share")
+    return os.path.join(base, "screener", "store.sqlite")
+
+
+class Store:
+    """A connection to one store file.  Use as a context manager or call close()."""
+
+    def __init__(self, path: str | None = None, create: bool = True, readonly: bool = False):
+        self.path = os.path.abspath(path or default_store_path())
+        if not os.path.exists(self.path):
+            if not create or readonly:
+                raise ScreenerError(f"{self.path}: no store here (run `screener run` first, or "
+                                    f"give --store)")
+            try:
+                os.makedirs(os.path.dirname(self.path), exist_ok=True)
+            except OSError as exc:
+                raise ScreenerError(f"{self.path}: cannot create the store folder: {exc.strerror}") from None
+        try:
+            uri = f"file:{self.path}?mode=ro" if readonly else f"file:{self.path}"
+            self.conn = sqlite3.connect(uri, uri=True, timeout=30.0, isolation_level=None,
+                                        check_same_thread=False)
+            self.conn.row_factory = sqlite3.Row
+            if not readonly:
+                self.conn.execute("PRAGMA journal_mode=WAL")
+                self.conn.execute("PRAGMA synchronous=NORMAL")
+            self.conn.execute("PRAGMA foreign_keys=ON")
+            self._migrate(readonly)
+        except sqlite3.DatabaseError as exc:
+            raise ScreenerError(f"{self.path}: not a usable screener store ({exc})") from None
+
+    @property
+    def folder(self) -> str:
+        return os.path.dirname(self.path)
+
+    def version(self) -> int:
+        return int(self.conn.execute("PRAGMA user_version").fetchone()[0])
+
+    def _migrate(self, readonly: bool) -> None:
+        v = self.version()
+        if v > SCHEMA_VERSION:
+            raise ScreenerError(f"{self.path}: store schema {v} is newer than this screener "
+                                f"understands ({SCHEMA_VERSION}); upgrade screener")
+        if v == SCHEMA_VERSION:
+            return
+        if readonly:
+            raise ScreenerError(f"{self.path}: store schema {v} needs migrating; open it once "
+                                f"with `screener run` or `screener tui`")
+        self.conn.execute("BEGIN IMMEDIATE")
+        try:
+            v = self.version()          # another process may have migrated meanwhile
+            for step in range(v, SCHEMA_VERSION):
+                for stmt in MIGRATIONS[step].split(";"):
+                    if stmt.strip():
+                        self.conn.execute(stmt)
+                self.conn.execute(f"PRAGMA user_version = {step + 1}")
+            self.conn.execute("COMMIT")
+        except BaseException:
+            self.conn.execute("ROLLBACK")
+            raise
+
+    def close(self) -> None:
+        self.conn.close()
+
+    def __enter__(self):
+        return self
+
+    def __exit__(self, *exc):
+        self.close()

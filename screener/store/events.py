@@ -1,0 +1,119 @@
+"""Event identity across runs, the trend of one event, and what changed since the last run.
+
+An event is one predicted close approach of one pair: the same (primary, secondary) with TCAs
+within a tolerance (default 600 s, under half of any LEO period, so the recurring minima of a
+co-orbital pair stay separate events) is the same event, whatever run predicted it.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import sqlite3
+
+# Trend of the miss distance between this run and the event's previous encounter.
+CONVERGING = "converging"   # predicted miss shrinking
+GROWING = "growing"         # predicted miss growing
+STABLE = "stable"
+NEW = "new"
+TREND_MIN_CHANGE_KM = 0.05  # below 50 m, or below 10 %, a change is noise
+TREND_MIN_FRACTION = 0.10
+TCA_SHIFT_REPORT_S = 1.0
+
+
+def trend(prev_miss_km: float | None, miss_km: float) -> str:
+    if prev_miss_km is None:
+        return NEW
+    d = miss_km - prev_miss_km
+    if abs(d) < max(TREND_MIN_CHANGE_KM, TREND_MIN_FRACTION * prev_miss_km):
+        return STABLE
+    return CONVERGING if d < 0 else GROWING
+
+
+@dataclasses.dataclass
+class Match:
+    event_id: int
+    prev: sqlite3.Row | None        # the event's latest earlier encounter, if any
+
+
+def match_events(conn: sqlite3.Connection, run_id: int, pairs, tol_s: float) -> list[Match]:
+    """pairs: (primary_id, secondary_id, tca_unix_s) per encounter, in order.  Inside the
+    caller's transaction: updates or creates events and returns one Match per encounter."""
+    used: set[int] = set()
+    out = []
+    for p, s, t in pairs:
+        rows = conn.execute(
+            "SELECT id, last_tca_unix_s FROM events WHERE primary_id=? AND secondary_id=? "
+            "AND last_tca_unix_s BETWEEN ? AND ?", (p, s, t - tol_s, t + tol_s)).fetchall()
+        rows = sorted((r for r in rows if r["id"] not in used), key=lambda r: abs(r["last_tca_unix_s"] - t))
+        if rows:
+            eid = rows[0]["id"]
+            prev = conn.execute("SELECT * FROM encounters WHERE event_id=? ORDER BY run_id DESC "
+                                "LIMIT 1", (eid,)).fetchone()
+            conn.execute("UPDATE events SET last_run_id=?, last_tca_unix_s=? WHERE id=?", (run_id, t, eid))
+        else:
+            eid = conn.execute("INSERT INTO events (primary_id, secondary_id, first_run_id, "
+                               "last_run_id, last_tca_unix_s) VALUES (?,?,?,?,?)",
+                               (p, s, run_id, run_id, t)).lastrowid
+            prev = None
+        used.add(eid)
+        out.append(Match(eid, prev))
+    return out
+
+
+@dataclasses.dataclass
+class Diff:
+    previous_run_id: int | None
+    new: list[dict] = dataclasses.field(default_factory=list)
+    escalated: list[dict] = dataclasses.field(default_factory=list)
+    de_escalated: list[dict] = dataclasses.field(default_factory=list)
+    gone: list[dict] = dataclasses.field(default_factory=list)
+    tca_shifts: list[dict] = dataclasses.field(default_factory=list)
+
+    def counts(self) -> dict:
+        return {k: len(getattr(self, k)) for k in ("new", "escalated", "de_escalated", "gone", "tca_shifts")}
+
+    def to_json(self) -> dict:
+        return {"previous_run_id": self.previous_run_id, **{k: getattr(self, k) for k in
+                ("new", "escalated", "de_escalated", "gone", "tca_shifts")}}
+
+
+def change_of(prev: sqlite3.Row | None, rank: int) -> str:
+    if prev is None:
+        return "new"
+    if rank < prev["attention_rank"]:
+        return "escalated"
+    if rank > prev["attention_rank"]:
+        return "de-escalated"
+    return "same"
+
+
+def run_diff(conn: sqlite3.Connection, run_id: int, name: str, window_start_unix_s: float) -> Diff:
+    """Compare a committed run with the previous run of the same name."""
+    prev = conn.execute("SELECT id FROM runs WHERE name=? AND id<? ORDER BY id DESC LIMIT 1",
+                        (name, run_id)).fetchone()
+    d = Diff(prev["id"] if prev else None)
+    cur = conn.execute("""
+        SELECT e.*, p.attention AS prev_attention, p.tca_unix_s AS prev_tca, p.miss_km AS prev_miss
+        FROM encounters e LEFT JOIN encounters p
+          ON p.event_id = e.event_id AND p.run_id = ?
+        WHERE e.run_id = ?""", (d.previous_run_id or -1, run_id)).fetchall()
+    for r in cur:
+        item = {"event_id": r["event_id"], "primary": r["primary_id"], "secondary": r["secondary_id"],
+                "tca": r["tca_utc"], "miss_km": r["miss_km"], "pc": r["pc"], "attention": r["attention"]}
+        if r["change"] == "new":
+            d.new.append(item)
+        elif r["change"] == "escalated":
+            d.escalated.append({**item, "was": r["prev_attention"]})
+        elif r["change"] == "de-escalated":
+            d.de_escalated.append({**item, "was": r["prev_attention"]})
+        if r["prev_tca"] is not None and abs(r["tca_unix_s"] - r["prev_tca"]) > TCA_SHIFT_REPORT_S:
+            d.tca_shifts.append({**item, "shift_s": r["tca_unix_s"] - r["prev_tca"]})
+    if d.previous_run_id is not None:
+        for r in conn.execute("""
+            SELECT p.* FROM encounters p WHERE p.run_id = ? AND p.tca_unix_s >= ?
+              AND NOT EXISTS (SELECT 1 FROM encounters e WHERE e.run_id = ? AND e.event_id = p.event_id)
+            """, (d.previous_run_id, window_start_unix_s, run_id)):
+            d.gone.append({"event_id": r["event_id"], "primary": r["primary_id"],
+                           "secondary": r["secondary_id"], "tca": r["tca_utc"],
+                           "miss_km": r["miss_km"], "pc": r["pc"], "attention": r["attention"]})
+    return d

@@ -1,0 +1,119 @@
+"""Writing one run: everything in a single transaction, so a run is stored whole or not at all."""
+
+from __future__ import annotations
+
+import json
+import math
+import os
+import sys
+import time
+
+from .. import __version__
+from ..risk.attention import LEVEL_RANK
+from ..timeutil import iso_z, jd_to_datetime
+from .db import Store
+from .events import change_of, match_events, run_diff, trend
+
+HOLD_ENV = "SCREENER_TEST_HOLD"   # tests only: pause at a named point inside the transaction
+
+
+def _hold(point: str) -> None:
+    """Lets the interruption tests stop a child at a known point of the write; a no-op unless
+    SCREENER_TEST_HOLD names the point."""
+    if os.environ.get(HOLD_ENV) == point:
+        print(f"screener-hold:{point}", file=sys.stderr, flush=True)
+        time.sleep(120)
+
+
+def unix_s(jd: float, fr: float) -> float:
+    return ((jd - 2440587.5) + fr) * 86400.0
+
+
+def _elset_rows(run_id, req):
+    rows = []
+    for role, recs in (("primary", req.primaries), ("secondary", req.catalog)):
+        for r in recs:
+            l1, l2 = r.to_tle()
+            rows.append((run_id, r.catalog_id, r.name, role, "element set",
+                         iso_z(r.epoch, 6), str(r.source), l1, l2))
+    for o in req.primary_oems:
+        seg = o.segments[0]
+        rows.append((run_id, o.object_id, o.object_name, "primary", "OEM",
+                     iso_z(jd_to_datetime(seg.start_jd, seg.t_s[0] / 86400.0), 3), o.path, None, None))
+    return rows
+
+
+def commit_run(store: Store, *, name: str, config_snapshot: dict, inputs_files: list[dict],
+               result, started_utc: str, thresholds, tca_tolerance_s: float,
+               log_path: str | None = None):
+    """Store a screening result with risk attached.  Returns (run_id, Diff)."""
+    req = result.request
+    conn = store.conn
+    w0 = unix_s(req.jd0, req.fr0)
+    _hold("before-begin")
+    conn.execute("BEGIN IMMEDIATE")
+    try:
+        run_id = conn.execute(
+            "INSERT INTO runs (name, started_utc, finished_utc, window_start_utc, window_start_unix_s,"
+            " window_days, volume, mode, software_version, config_json, inputs_json, stats_json,"
+            " thresholds_json, n_primaries, n_secondaries, n_encounters, log_path)"
+            " VALUES (?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?)",
+            (name, started_utc, iso_z(_now(), 3), iso_z(jd_to_datetime(req.jd0, req.fr0), 3), w0,
+             req.duration_s / 86400.0, req.volume.describe(),
+             "all-vs-all" if req.all_vs_all else "fleet", f"screener {__version__}",
+             json.dumps(config_snapshot, default=str), json.dumps(inputs_files),
+             json.dumps({**result.stats, "unusable": result.unusable}),
+             json.dumps({"act_pc": thresholds.act_pc, "watch_pc": thresholds.watch_pc}),
+             len(req.primaries) + len(req.primary_oems), len(req.catalog), len(result.encounters),
+             log_path)).lastrowid
+        _hold("after-run-row")
+        conn.executemany("INSERT OR REPLACE INTO elsets VALUES (?,?,?,?,?,?,?,?,?)", _elset_rows(run_id, req))
+        encs = result.encounters
+        tcas = [unix_s(*e.tca_jd) for e in encs]
+        matches = match_events(conn, run_id, [(e.primary, e.secondary, t) for e, t in zip(encs, tcas)],
+                               tca_tolerance_s)
+        rows = []
+        for e, t, m in zip(encs, tcas, matches):
+            rk = e.risk
+            rank = LEVEL_RANK[rk["attention"]]
+            tr = trend(m.prev["miss_km"] if m.prev else None, e.miss_km)
+            ch = change_of(m.prev, rank)
+            data = e.to_json()
+            data.update({"trend": tr, "change": ch, "event_id": m.event_id})
+            if m.prev is not None:
+                data["previous"] = {"run_id": m.prev["run_id"], "miss_km": m.prev["miss_km"],
+                                    "pc": m.prev["pc"], "tca": m.prev["tca_utc"],
+                                    "attention": m.prev["attention"]}
+            rows.append((run_id, m.event_id, e.primary, e.primary_name, e.secondary, e.secondary_name,
+                         iso_z(e.tca, 6), t, e.miss_km, e.radial_km, e.in_track_km, e.cross_track_km,
+                         e.relative_speed_km_s, rk["pc"], rk.get("log10_pc"), rk["pc_max"],
+                         rk["attention"], rank, rk["covariance_source"], int(rk["dilution_region"]),
+                         tr, ch, json.dumps(data, default=_jsonable)))
+        _hold("after-events")
+        conn.executemany(
+            "INSERT INTO encounters (run_id, event_id, primary_id, primary_name, secondary_id,"
+            " secondary_name, tca_utc, tca_unix_s, miss_km, radial_km, in_track_km, cross_track_km,"
+            " relative_speed_km_s, pc, log10_pc, pc_max, attention, attention_rank,"
+            " covariance_source, dilution, trend, change, data_json)"
+            " VALUES (?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?)", rows)
+        _hold("before-commit")
+        diff = run_diff(conn, run_id, name, w0)
+        conn.execute("COMMIT")
+    except BaseException:
+        conn.execute("ROLLBACK")
+        raise
+    return run_id, diff
+
+
+def _jsonable(x):
+    if isinstance(x, float) and not math.isfinite(x):
+        return None
+    if hasattr(x, "tolist"):
+        return x.tolist()
+    return str(x)
+
+
+def _now():
+    import datetime as dt
+
+    return dt.datetime.now(dt.timezone.utc)
