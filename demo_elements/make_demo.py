@@ -52,11 +52,11 @@ def main() -> None:
         fh.write("# Older synthetic element sets of the engineered demo objects (invented).\n")
         for rec in engineered:
             for back in (3.0, 2.0, 1.0):
+                # an in-track error of (0.15 + 0.25 * age) km: the older set's state is the
+                # current set's state a little earlier or later along the same orbit
                 e_jd, e_fr = rec.epoch_jd, rec.epoch_fr - back
-                r, v = synth.state_of(rec, e_jd, e_fr)
-                rhat = r / np.linalg.norm(r)
-                that = v / np.linalg.norm(v)
-                r = r + rhat * rng.normal(0, 0.03 + 0.02 * back) + that * rng.normal(0, 0.15 + 0.25 * back)
+                shift_km = rng.normal(0, 0.15 + 0.25 * back)
+                r, v = synth.state_of(rec, e_jd, e_fr + shift_km / 7.6 / 86400.0)
                 old = synth.fit_elements(r, v, e_jd, e_fr, rec.catalog_id, rec.name)
                 l1, l2 = format_tle(dataclasses.replace(old, intl_designator="26999Z"))
                 fh.write(f"{rec.name}\n{l1}\n{l2}\n")

@@ -33,3 +33,7 @@ class ConfigError(ScreenerError):
 
 class PropagationError(ScreenerError):
     """A request the propagation layer cannot honour (e.g. extrapolating an ephemeris)."""
+
+
+class StoreError(ScreenerError):
+    """The run store cannot be opened or written (CLI exit code 4)."""

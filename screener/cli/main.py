@@ -5,7 +5,7 @@ Exit codes (for cron):
   2  bad input or configuration (the message names file, line and reason)
   3  an event at the "act" attention level was found (only with --fail-on-act)
   4  the store could not be opened or written
-  130 interrupted (nothing of the interrupted run is stored)
+  130 interrupted by Ctrl-C, 143 by SIGTERM (nothing of the interrupted run is stored)
 """
 
 from __future__ import annotations
@@ -15,17 +15,14 @@ import os
 import sys
 
 from .. import CAUTION, __version__
-from ..errors import ScreenerError
+from ..errors import ScreenerError, StoreError
 
 EXIT_OK = 0
 EXIT_BAD_INPUT = 2
 EXIT_ACT = 3
 EXIT_STORE = 4
 EXIT_INTERRUPTED = 130
-
-
-class StoreError(ScreenerError):
-    """The store is unusable (exit 4)."""
+EXIT_TERMINATED = 143
 
 
 def add_screen_args(p: argparse.ArgumentParser, required: bool = True) -> None:
@@ -110,7 +107,7 @@ def write_result_json(path, res, extra: dict | None = None) -> None:
 def make_parser() -> argparse.ArgumentParser:
     ap = argparse.ArgumentParser(prog="screener", description="Conjunction screening. " + CAUTION,
                                  epilog="exit codes: 0 ok, 2 bad input or configuration, 3 act-level "
-                                        "event (with --fail-on-act), 4 store error, 130 interrupted")
+                                        "event (with --fail-on-act), 4 store error, 130/143 interrupted")
     ap.add_argument("--version", action="version", version=f"screener {__version__}")
     sub = ap.add_subparsers(dest="command", required=True)
     p = sub.add_parser("screen", help="one-off screening of primaries against a catalog (or all-vs-all)")
@@ -124,9 +121,23 @@ def make_parser() -> argparse.ArgumentParser:
     return ap
 
 
+class Terminated(BaseException):
+    """SIGTERM, turned into an exception so open store transactions roll back."""
+
+
+def _on_sigterm(signum, frame):
+    raise Terminated()
+
+
 def main(argv=None) -> int:
+    import signal
+
     ap = make_parser()
     args = ap.parse_args(argv)
+    try:
+        signal.signal(signal.SIGTERM, _on_sigterm)
+    except ValueError:          # not the main thread (embedded use): keep the default
+        pass
     try:
         return args.func(args)
     except StoreError as exc:
@@ -138,6 +149,9 @@ def main(argv=None) -> int:
     except KeyboardInterrupt:
         print("screener: interrupted; nothing of this run was stored", file=sys.stderr)
         return EXIT_INTERRUPTED
+    except Terminated:
+        print("screener: terminated (SIGTERM); nothing of this run was stored", file=sys.stderr)
+        return EXIT_TERMINATED
 
 
 if __name__ == "__main__":

@@ -46,7 +46,7 @@ def add_run_parsers(sub) -> None:
 
 def open_store(path, create=True):
     from ..store import Store
-    from .main import StoreError
+    from ..errors import StoreError
 
     try:
         return Store(path, create=create)

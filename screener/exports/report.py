@@ -31,7 +31,7 @@ def render_report(run: dict, encs: list[dict], diff_text: str = "", fmt: str = "
     if diff_text:
         facts += diff_text.splitlines()
     if fmt == "html":
-        e = html.escape
+        e = lambda s: html.escape(s, quote=False)  # noqa: E731
         rows = "".join("<tr>" + "".join(f"<td>{e(c)}</td>" for c in r) + "</tr>" for r in _rows(encs))
         return (f"<!doctype html><html><head><meta charset='utf-8'><title>{e(title)}</title></head><body>"
                 f"<p><strong>{e(CAUTION)}</strong></p><h1>{e(title)}</h1>"

@@ -1,0 +1,118 @@
+"""The textual App and its one factory (used by `screener tui` and by the tests)."""
+
+from __future__ import annotations
+
+import os
+import time
+from typing import Callable
+
+from textual.app import App
+from textual.binding import Binding
+
+from ..errors import ScreenerError
+from .too_small import MIN_COLS, MIN_ROWS, TooSmallScreen
+from .triage import TriageScreen
+
+
+class ScreenerApp(App):
+    CSS_PATH = "screener.tcss"
+    TITLE = "screener"
+    BINDINGS = [Binding("ctrl+q", "quit", "Quit", show=False)]
+
+    def __init__(self, store_path: str, config_path: str | None = None,
+                 now: Callable[[], float] | None = None, light: bool = False, **kw):
+        super().__init__(**kw)
+        self.store_path = store_path
+        self.config_path = config_path
+        self._now = now or time.time
+        self._store = None
+        if light:
+            self.theme = "textual-light"
+
+    def now_unix_s(self) -> float:
+        return self._now()
+
+    def on_mount(self) -> None:
+        self.push_screen(TriageScreen())
+        self._check_size()
+
+    def on_resize(self, event) -> None:
+        self._check_size()
+
+    def _check_size(self) -> None:
+        w, h = self.size
+        small = w < MIN_COLS or h < MIN_ROWS
+        showing = isinstance(self.screen, TooSmallScreen)
+        if small and not showing:
+            self.push_screen(TooSmallScreen())
+        elif not small and showing:
+            self.pop_screen()
+
+    # ----- store access for the screens
+    def open_store(self):
+        from ..store import Store
+
+        if self._store is None:
+            if not os.path.exists(self.store_path):
+                return None
+            try:
+                self._store = Store(self.store_path, create=False)
+            except ScreenerError as exc:
+                self.notify(str(exc), severity="error")
+                return None
+        return self._store
+
+    def close_store(self) -> None:
+        if self._store is not None:
+            self._store.close()
+            self._store = None
+
+    def screening_config(self):
+        """The configuration a new screening uses: --config, else the latest run's file."""
+        from ..config import load_config
+        from ..store import queries
+
+        path = self.config_path
+        if path is None:
+            store = self.open_store()
+            info = queries.run(store) if store else None
+            path = info.config.get("path") if info else None
+        if not path:
+            self.notify("no configuration: start the TUI with --config FILE", severity="error")
+            return None
+        try:
+            return load_config(path)
+        except ScreenerError as exc:
+            self.notify(str(exc), severity="error", timeout=10)
+            return None
+
+    def export_cdm(self, encounter_id: int) -> str | None:
+        from ..exports import write_event_cdm
+        from ..store import queries
+
+        store = self.open_store()
+        d = queries.encounter_detail(store, encounter_id)
+        folder = os.path.join(store.folder, "exports", f"run-{d['run_id']}", "cdm")
+        try:
+            os.makedirs(folder, exist_ok=True)
+            info = queries.run(store, d["run_id"])
+            man = {k: v.get("maneuverable") for k, v in info.config.get("members", {}).items()}
+            path = write_event_cdm(folder, d, man)
+        except OSError as exc:
+            self.notify(f"export failed: {exc.strerror}", severity="error")
+            return None
+        self.notify(f"CDM written: {path}", timeout=8)
+        self.last_export = path
+        return path
+
+    def on_unmount(self) -> None:
+        self.close_store()
+
+
+def make_app(store_path: str | None = None, config_path: str | None = None,
+             now: Callable[[], float] | None = None, light: bool | None = None) -> ScreenerApp:
+    from ..store import default_store_path
+
+    if light is None:
+        light = os.environ.get("SCREENER_THEME", "").lower() == "light"
+    return ScreenerApp(store_path or default_store_path(), config_path, now=now, light=light)

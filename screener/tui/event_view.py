@@ -1,0 +1,193 @@
+"""One event in depth: geometry, both orbits, covariance, Pc by method, and three plots
+(range around TCA, the encounter plane, the event's history across runs)."""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+from textual.app import ComposeResult
+from textual.binding import Binding
+from textual.containers import VerticalScroll
+from textual.screen import Screen
+from textual.widgets import Footer, Static
+
+from ..constants import MU_EARTH_KM3_S2, RE_WGS84_KM
+from ..risk.pc import chan_is_reliable, pc_chan, pc_quadrature
+from ..store import queries
+from .model import fmt_pc, fmt_until, summary_line
+from .plots import history_lines, plane_plot, range_plot
+from .widgets import CautionBar
+
+PLOTS = ("range", "plane", "history")
+
+
+def osculating(state) -> dict:
+    """Two-body orbit from a TEME state at TCA: perigee/apogee altitude, inclination, and the
+    period from Kepler's third law, T = 2 pi sqrt(a^3 / mu)."""
+    r, v = np.asarray(state[:3], float), np.asarray(state[3:], float)
+    rn, vn = np.linalg.norm(r), np.linalg.norm(v)
+    a = 1.0 / (2.0 / rn - vn * vn / MU_EARTH_KM3_S2)
+    h = np.cross(r, v)
+    e = np.linalg.norm(np.cross(v, h) / MU_EARTH_KM3_S2 - r / rn)
+    inc = math.degrees(math.acos(h[2] / np.linalg.norm(h)))
+    if a <= 0:
+        return {"inc_deg": inc, "a_km": a, "e": e}
+    return {"a_km": a, "e": e, "inc_deg": inc, "perigee_alt_km": a * (1 - e) - RE_WGS84_KM,
+            "apogee_alt_km": a * (1 + e) - RE_WGS84_KM,
+            "period_min": 2 * math.pi * math.sqrt(a ** 3 / MU_EARTH_KM3_S2) / 60.0}
+
+
+def _orbit_line(o: dict) -> str:
+    if "period_min" not in o:
+        return f"hyperbolic, i {o['inc_deg']:.2f} deg"
+    return (f"perigee {o['perigee_alt_km']:.0f} km, apogee {o['apogee_alt_km']:.0f} km, "
+            f"i {o['inc_deg']:.2f} deg, period {o['period_min']:.2f} min")
+
+
+def facts_text(d: dict, now_unix_s: float, tca_unix_s: float) -> str:
+    pc = d.get("pc") or 0.0
+    xm, ym, sx, sy, hbr = (d.get(k) for k in ("plane_xm_m", "plane_ym_m", "plane_sx_m", "plane_sy_m", "hbr_m"))
+    chan_line = ""
+    if None not in (xm, ym, sx, sy, hbr):
+        ok, why = chan_is_reliable(xm, ym, sx, sy, hbr)
+        chan = pc_chan(xm, ym, sx, sy, hbr)
+        chan_line = f"  Chan series          {fmt_pc(chan)}" + ("" if ok else f"  (not used: {why})")
+        quad = pc_quadrature(xm, ym, sx, sy, hbr)
+    else:
+        quad = d.get("pc_quadrature", 0.0)
+    po, so = osculating(d["primary_state_teme"]), osculating(d["secondary_state_teme"])
+    lines = [
+        f"TCA {d['tca']}  ({fmt_until(tca_unix_s - now_unix_s)} from now)",
+        f"miss {d['miss_km'] * 1e3:.1f} m:  radial {d['radial_km'] * 1e3:.1f} m, in-track "
+        f"{d['in_track_km'] * 1e3:.1f} m, cross-track {d['cross_track_km'] * 1e3:.1f} m",
+        f"relative speed {d['relative_speed_km_s']:.3f} km/s, crossing angle {d['crossing_angle_deg']:.1f} deg",
+        "",
+        f"primary   {d['primary']} {d['primary_name']}",
+        f"  altitude at TCA {d['primary_alt_km']:.1f} km; element set {d['primary_elset_age_days']:.1f} d old",
+        f"  {_orbit_line(po)}",
+        f"  covariance: {d.get('primary_covariance', '?')}",
+        f"  sigma R/I/C {', '.join(f'{x * 1e3:.0f}' for x in d.get('primary_sigma_rtn_km', []))} m",
+        f"secondary {d['secondary']} {d['secondary_name']}",
+        f"  altitude at TCA {d['secondary_alt_km']:.1f} km; element set {d['secondary_elset_age_days']:.1f} d old",
+        f"  {_orbit_line(so)}",
+        f"  covariance: {d.get('secondary_covariance', '?')}",
+        f"  sigma R/I/C {', '.join(f'{x * 1e3:.0f}' for x in d.get('secondary_sigma_rtn_km', []))} m",
+        "",
+        f"Pc {fmt_pc(pc)} (log10 {math.log10(pc):.2f})  by {d.get('pc_method', '?')}" if pc > 0 else
+        f"Pc 0 by {d.get('pc_method', '?')}",
+        f"  2-D quadrature       {fmt_pc(quad)}",
+    ]
+    if chan_line:
+        lines.append(chan_line)
+    lines += [
+        f"  max Pc (size scaled) {fmt_pc(d.get('pc_max', 0.0))}   any shape {fmt_pc(d.get('pc_max_any_shape', 0.0))}",
+        f"  hard-body radius {hbr:g} m; covariance source: {d.get('covariance_source', '?')}",
+        f"  attention {d.get('attention', '?')}: {d.get('attention_reason', '')}",
+    ]
+    if d.get("assumed_covariance"):
+        lines.append("  ASSUMED COVARIANCE: a regime model, not measured; treat this Pc as indicative")
+    if d.get("dilution_region"):
+        lines.append("  DILUTION REGION: Pc is low because the uncertainty is large, not because the "
+                     "geometry is safe")
+    if d.get("pc_note"):
+        lines.append(f"  {d['pc_note']}")
+    if d.get("volume_entry"):
+        lines.append(f"  in the screening volume {d['volume_entry']} to {d['volume_exit']}")
+    lines.append(f"trend {d.get('trend', '?')}, change since the previous run: {d.get('change', '?')}")
+    return "\n".join(lines)
+
+
+class EventScreen(Screen):
+    BINDINGS = [
+        Binding("escape,backspace", "back", "Back"),
+        Binding("1", "plot('range')", "Range plot"),
+        Binding("2", "plot('plane')", "Encounter plane"),
+        Binding("3", "plot('history')", "History"),
+        Binding("e", "export", "Export CDM"),
+        Binding("y", "copy", "Copy line"),
+        Binding("question_mark", "help", "Help"),
+        Binding("q", "app.quit", "Quit", show=False),
+    ]
+
+    def __init__(self, encounter_id: int) -> None:
+        super().__init__()
+        self.encounter_id = encounter_id
+        self.plot = "range"
+        self.detail: dict = {}
+        self.history: list[dict] = []
+        self.tca_unix_s = 0.0
+
+    def compose(self) -> ComposeResult:
+        yield Static("", id="event-title")
+        with VerticalScroll(id="event-body"):
+            yield Static("", id="event-facts")
+            yield Static("", id="event-plot")
+        yield CautionBar()
+        yield Footer()
+
+    def on_mount(self) -> None:
+        store = self.app.open_store()
+        self.detail = queries.encounter_detail(store, self.encounter_id)
+        self.history = queries.event_history(store, self.detail["event_id"])
+        self.tca_unix_s = store.conn.execute("SELECT tca_unix_s FROM encounters WHERE id=?",
+                                             (self.encounter_id,)).fetchone()[0]
+        d = self.detail
+        self.query_one("#event-title", Static).update(
+            f"event {d['event_id']}: {d['primary']} {d['primary_name']} x {d['secondary']} "
+            f"{d['secondary_name']} | {d.get('attention', '?')} | Pc {fmt_pc(d.get('pc') or 0.0)} | "
+            f"miss {d['miss_km'] * 1e3:.0f} m | run {d['run_id']}")
+        self.query_one("#event-facts", Static).update(facts_text(d, self.app.now_unix_s(), self.tca_unix_s))
+        self._layout()
+        self.query_one("#event-body").focus()
+
+    def on_resize(self) -> None:
+        self._layout()
+
+    def _layout(self) -> None:
+        body = self.query_one("#event-body")
+        body.set_class(self.app.size.width >= 150, "wide")
+        self._draw_plot()
+
+    def _draw_plot(self) -> None:
+        w, h = self.app.size
+        wide = w >= 150
+        cols = (w // 2 - 4) if wide else w - 4
+        rows = max(10, h - 8) if wide else 14
+        d = self.detail
+        if self.plot == "range":
+            vol = None
+            lines = range_plot(d.get("profile_half_s") or 60.0, d.get("range_profile_km") or [],
+                               cols, rows, vol)
+        elif self.plot == "plane":
+            lines = plane_plot(d["plane_xm_m"], d["plane_ym_m"], d["plane_sx_m"], d["plane_sy_m"],
+                               d["hbr_m"], cols, rows)
+        else:
+            lines = history_lines(self.history, cols, rows)
+        keys = "  [1 range | 2 plane | 3 history]"
+        self.query_one("#event-plot", Static).update("\n".join([f"plot: {self.plot}{keys}"] + lines))
+
+    def action_plot(self, which: str) -> None:
+        self.plot = which
+        self._draw_plot()
+        if not self.query_one("#event-body").has_class("wide"):
+            self.query_one("#event-body").scroll_to_widget(self.query_one("#event-plot"), animate=False)
+
+    def action_back(self) -> None:
+        self.app.pop_screen()
+
+    def action_export(self) -> None:
+        self.app.export_cdm(self.encounter_id)
+
+    def action_copy(self) -> None:
+        d = self.detail
+        line = summary_line(d["primary"], d["primary_name"], d["secondary"], d["secondary_name"],
+                            d["tca"], d["miss_km"], d["relative_speed_km_s"], d.get("pc") or 0.0,
+                            d.get("attention", "?"), d.get("covariance_source", "?"))
+        self.app.copy_to_clipboard(line)
+        self.notify(f"copied: {line}", timeout=6)
+
+    def action_help(self) -> None:
+        from .help import HelpScreen
+
+        self.app.push_screen(HelpScreen("event view", [self, self.app]))

@@ -1,0 +1,259 @@
+"""The triage screen: the latest run's encounters, ranked, with sort, filters and search;
+starts background screenings; exports and copies the selected event."""
+
+from __future__ import annotations
+
+import threading
+
+from textual import on, work
+from textual.app import ComposeResult
+from textual.binding import Binding
+from textual.screen import Screen
+from textual.widgets import Footer, Input, Static
+
+from ..risk.attention import LEVELS
+from ..store import queries
+from .encounter_list import ColumnHeader, EncounterList
+from .model import RunView, summary_line
+from .widgets import CautionBar
+
+
+def one_line(r) -> str:
+    """The one-line event summary that y copies."""
+    return summary_line(r.primary_id, r.primary_name, r.secondary_id, r.secondary_name, r.tca_utc,
+                        r.miss_km, r.relative_speed_km_s, r.pc, r.attention, r.covariance_source)
+
+
+class TriageScreen(Screen):
+    BINDINGS = [
+        Binding("s", "sort", "Sort"),
+        Binding("v", "reverse", "Reverse"),
+        Binding("l", "level", "Level"),
+        Binding("p", "primary", "Primary"),
+        Binding("t", "window", "TCA window"),
+        Binding("slash", "search", "Search"),
+        Binding("escape", "clear", "Clear filters", show=False),
+        Binding("n", "new_run", "New screening"),
+        Binding("x", "cancel_run", "Cancel screening", show=False),
+        Binding("e", "export", "Export CDM"),
+        Binding("y", "copy", "Copy line", show=False),
+        Binding("left_square_bracket", "run_step(-1)", "Older run", show=False),
+        Binding("right_square_bracket", "run_step(1)", "Newer run", show=False),
+        Binding("question_mark", "help", "Help"),
+        Binding("q", "app.quit", "Quit"),
+    ]
+
+    def __init__(self) -> None:
+        super().__init__()
+        self.run_info = None
+        self.model: RunView | None = None
+        self._cancel: threading.Event | None = None
+        self.last_run_status = ""
+
+    def compose(self) -> ComposeResult:
+        yield Static("", id="run-line")
+        yield Static("", id="filter-line")
+        yield Input(placeholder="search ids and names; Enter or Esc returns to the list", id="search")
+        yield ColumnHeader(id="columns")
+        yield EncounterList(id="encounters")
+        yield Static("", id="status")
+        yield CautionBar()
+        yield Footer()
+
+    def on_mount(self) -> None:
+        self.query_one("#search", Input).display = False
+        self.load_run(None)
+        self.query_one(EncounterList).focus()
+
+    # ----- data
+    def load_run(self, run_id: int | None) -> None:
+        store = self.app.open_store()
+        lst = self.query_one(EncounterList)
+        if store is None:
+            self.run_info, self.model = None, RunView([], self.app.now_unix_s())
+            lst.set_model(self.model, self.app.now_unix_s())
+            self.query_one("#run-line", Static).update(
+                f"No store at {self.app.store_path}. Start a screening with n (needs --config), or "
+                f"run `screener run --config FILE`.")
+            self._update_filter_line()
+            return
+        info = queries.run(store, run_id)
+        if info is None:
+            self.run_info, self.model = None, RunView([], self.app.now_unix_s())
+            lst.set_model(self.model, self.app.now_unix_s())
+            self.query_one("#run-line", Static).update(f"The store {store.path} holds no runs yet.")
+            self._update_filter_line()
+            return
+        rows = queries.encounter_rows(store, info.id)
+        self.run_info = info
+        old = self.model
+        self.model = RunView(rows, self.app.now_unix_s())
+        if old is not None and old.rows:
+            self.model.sort, self.model.reverse, self.model.filters = old.sort, old.reverse, old.filters
+            self.model.refresh()
+        lst.set_model(self.model, self.app.now_unix_s())
+        counts = {lv: sum(1 for r in rows if r.attention == lv) for lv in LEVELS}
+        wide = self.app.size.width >= 120
+        self.query_one("#run-line", Static).update(
+            " ".join(f"{lv} {counts[lv]}" for lv in LEVELS)
+            + f" | run {info.id} {info.name} {info.window_start_utc[:16].replace('T', ' ')}Z"
+              f" +{info.window_days:g}d" + (f" | {info.mode}, {info.volume}" if wide else ""))
+        self._update_filter_line()
+
+    def _update_filter_line(self) -> None:
+        m = self.model
+        text = (f"sort {m.describe_sort()} | {m.filters.describe()} | showing {len(m)} of {len(m.rows)}"
+                if m else "")
+        self.query_one("#filter-line", Static).update(text)
+
+    def _changed(self) -> None:
+        self.query_one(EncounterList).model_changed()
+        self._update_filter_line()
+
+    # ----- list actions
+    def action_sort(self) -> None:
+        self.model.cycle_sort()
+        self._changed()
+
+    def action_reverse(self) -> None:
+        self.model.flip()
+        self._changed()
+
+    def action_level(self) -> None:
+        self.model.cycle_level()
+        self._changed()
+
+    def action_primary(self) -> None:
+        self.model.cycle_primary()
+        self._changed()
+
+    def action_window(self) -> None:
+        self.model.cycle_window()
+        self._changed()
+
+    def action_search(self) -> None:
+        box = self.query_one("#search", Input)
+        box.display = True
+        box.value = self.model.filters.search
+        box.focus()
+
+    @on(Input.Changed, "#search")
+    def _search_changed(self, event: Input.Changed) -> None:
+        self.model.set_search(event.value)
+        self._changed()
+
+    @on(Input.Submitted, "#search")
+    def _search_done(self, event: Input.Submitted) -> None:
+        self._close_search()
+
+    def _close_search(self) -> None:
+        box = self.query_one("#search", Input)
+        box.display = bool(self.model.filters.search)
+        self.query_one(EncounterList).focus()
+
+    def action_clear(self) -> None:
+        box = self.query_one("#search", Input)
+        if box.has_focus:
+            self._close_search()
+            return
+        from .model import Filters
+
+        self.model.filters = Filters()
+        box.value = ""
+        box.display = False
+        self.model.refresh()
+        self._changed()
+
+    def action_run_step(self, step: int) -> None:
+        store = self.app.open_store()
+        if store is None or self.run_info is None:
+            return
+        ids = [r["id"] for r in store.conn.execute("SELECT id FROM runs ORDER BY id")]
+        k = ids.index(self.run_info.id) + step
+        if 0 <= k < len(ids):
+            self.load_run(ids[k])
+        else:
+            self.notify("no older run" if step < 0 else "this is the newest run")
+
+    @on(EncounterList.Opened)
+    def _open(self, event: EncounterList.Opened) -> None:
+        from .event_view import EventScreen
+
+        self.app.push_screen(EventScreen(event.row.id))
+
+    def action_help(self) -> None:
+        from .help import HelpScreen
+
+        self.app.push_screen(HelpScreen("encounter list", [self, EncounterList, self.app]))
+
+    def action_export(self) -> None:
+        r = self.query_one(EncounterList).current
+        if r is None:
+            self.notify("nothing selected", severity="warning")
+            return
+        self.app.export_cdm(r.id)
+
+    def action_copy(self) -> None:
+        r = self.query_one(EncounterList).current
+        if r is None:
+            return
+        line = one_line(r)
+        self.app.copy_to_clipboard(line)
+        self.notify(f"copied: {line}", timeout=6)
+
+    # ----- background screening
+    def action_new_run(self) -> None:
+        if self._cancel is not None:
+            self.notify("a screening is already running (x cancels it)", severity="warning")
+            return
+        cfg = self.app.screening_config()
+        if cfg is None:
+            return
+        self._cancel = threading.Event()
+        self._status(f"screening {cfg.name}: starting (x cancels)")
+        self._screen_worker(cfg, self._cancel)
+
+    def action_cancel_run(self) -> None:
+        if self._cancel is None:
+            self.notify("no screening is running")
+            return
+        self._cancel.set()
+        self._status("cancelling after the current task ...")
+
+    def _status(self, text: str) -> None:
+        self.query_one("#status", Static).update(text)
+
+    @work(thread=True, exclusive=True, group="screening")
+    def _screen_worker(self, cfg, cancel: threading.Event) -> None:
+        from ..errors import ScreenerError
+        from ..pipeline import execute
+        from ..screening import Cancelled
+        from ..store import Store
+
+        def progress(stage, done, total):
+            self.app.call_from_thread(self._status, f"screening {cfg.name}: {stage} {done}/{total} "
+                                                    f"(x cancels)")
+
+        try:
+            store = Store(self.app.store_path)
+            try:
+                out = execute(cfg, store=store, progress=progress, cancel=cancel)
+            finally:
+                store.close()
+        except Cancelled:
+            self.app.call_from_thread(self._finished, None, "screening cancelled; nothing stored")
+        except ScreenerError as exc:
+            self.app.call_from_thread(self._finished, None, f"screening failed: {exc}")
+        else:
+            self.app.call_from_thread(self._finished, out.run_id,
+                                      f"run {out.run_id} stored: {len(out.result.encounters)} "
+                                      f"encounters; {out.diff.counts()}")
+
+    def _finished(self, run_id: int | None, text: str) -> None:
+        self._cancel = None
+        self.last_run_status = text
+        self._status(text)
+        self.notify(text, severity="information" if run_id else "warning")
+        if run_id is not None:
+            self.app.close_store()
+            self.load_run(run_id)

@@ -1,0 +1,61 @@
+"""Helpers for the nightly-run, export and TUI tests: configurations over the demo files and
+the `screener` command as a real subprocess."""
+
+from __future__ import annotations
+
+import os
+import subprocess
+import sys
+
+DEMO = os.path.abspath(os.path.join(os.path.dirname(__file__), "..", "demo_elements"))
+
+
+def write_config(path, *, start="2026-12-02T00:00:00Z", days=2.0, as_of=None, name="nightly",
+                 outputs=None, workers=1, extra="") -> str:
+    as_of_line = f'as_of = "{as_of}"' if as_of else ""
+    out = f'[outputs]\nfolder = "{outputs}"\ncdm = "watch"\nreport = "html"\n' if outputs else ""
+    text = f"""
+[run]
+name = "{name}"
+start = "{start}"
+window_days = {days}
+workers = {workers}
+
+[fleet]
+files = ["{DEMO}/fleet.json", "{DEMO}/larkspur-3.oem"]
+
+[fleet.objects."900000001"]
+radius_m = 6.5
+maneuverable = true
+
+[catalog]
+sources = ["{DEMO}/catalog.tle", "{DEMO}/catalog-history.tle"]
+{as_of_line}
+
+[volume]
+radius_km = 5.0
+
+{out}
+{extra}
+"""
+    with open(path, "w") as fh:
+        fh.write(text)
+    return str(path)
+
+
+def screener(*args, env=None, timeout=600):
+    e = dict(os.environ)
+    e.update(env or {})
+    return subprocess.run([sys.executable, "-m", "screener.cli.main", *args], capture_output=True,
+                          text=True, timeout=timeout, env=e)
+
+
+def demo_store(folder) -> str:
+    """A store with two runs of the demo scenario ("last night" with the catalog as it stood
+    on 2026-12-01 12:00 UTC, "tonight" with the current one), as `make demo` builds it."""
+    store = os.path.join(folder, "store.sqlite")
+    for cfg in ("demo-previous.toml", "demo.toml"):
+        p = screener("run", "--config", os.path.join(DEMO, cfg), "--store", store, "--quiet",
+                     "--no-exports")
+        assert p.returncode == 0, p.stderr
+    return store

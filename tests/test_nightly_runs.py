@@ -1,0 +1,160 @@
+"""Nightly runs into a real SQLite store: event identity across runs over shifted windows,
+histories, the run-to-run diff, exit codes for cron, progress output, per-run logs."""
+
+from __future__ import annotations
+
+import glob
+import os
+import re
+import sqlite3
+
+import pytest
+
+from screener.store import Store, queries
+
+from .nightly import DEMO, screener, write_config
+
+TOL_S = 600.0   # the configuration default for event identity (events.tca_tolerance_s)
+
+
+@pytest.fixture(scope="module")
+def two_runs(tmp_path_factory):
+    """Run A: window 2026-12-02 00:00 + 2 d with the catalog as of 2026-12-01 12:00 (older
+    element sets of the engineered objects).  Run B: the window shifted by 12 h, with the
+    current element sets."""
+    d = tmp_path_factory.mktemp("nightly")
+    store = str(d / "store.sqlite")
+    a = write_config(d / "a.toml", start="2026-12-02T00:00:00Z", as_of="2026-12-01T12:00:00Z")
+    b = write_config(d / "b.toml", start="2026-12-02T12:00:00Z")
+    pa = screener("run", "--config", a, "--store", store)
+    pb = screener("run", "--config", b, "--store", store, "--json", str(d / "b.json"))
+    return store, pa, pb, d
+
+
+def _rows(conn, run_id):
+    conn.row_factory = sqlite3.Row
+    return conn.execute("SELECT * FROM encounters WHERE run_id=?", (run_id,)).fetchall()
+
+
+def test_both_runs_commit(two_runs):
+    store, pa, pb, _ = two_runs
+    assert pa.returncode == 0, pa.stderr
+    assert pb.returncode == 0, pb.stderr
+    with Store(store) as s:
+        assert [r.id for r in queries.runs(s)] == [2, 1]
+        assert s.conn.execute("PRAGMA journal_mode").fetchone()[0] == "wal"
+        assert s.version() == 1
+
+
+def test_events_are_matched_by_pair_and_tca_tolerance(two_runs):
+    """Brute force over both runs' rows: a run-B encounter shares its event with the run-A
+    encounter of the same pair within 600 s, and only then."""
+    store, *_ = two_runs
+    conn = sqlite3.connect(store)
+    a, b = _rows(conn, 1), _rows(conn, 2)
+    matched = 0
+    for e in b:
+        twins = [x for x in a if (x["primary_id"], x["secondary_id"]) == (e["primary_id"], e["secondary_id"])
+                 and abs(x["tca_unix_s"] - e["tca_unix_s"]) <= TOL_S]
+        if twins:
+            matched += 1
+            assert e["event_id"] == twins[0]["event_id"]
+            assert e["change"] != "new"
+        else:
+            assert e["event_id"] not in {x["event_id"] for x in a}
+            assert e["change"] == "new" and e["trend"] == "new"
+    assert matched >= 3, "the engineered events inside both windows are matched"
+
+
+def test_history_grows_and_trend_follows_the_miss(two_runs):
+    store, *_ = two_runs
+    with Store(store) as s:
+        # LARKSPUR-3 (from its OEM, id 2026-903A) x DEB-004 on 2026-12-03 06:00 is in both windows
+        row = s.conn.execute("SELECT * FROM encounters WHERE run_id=2 AND primary_id='2026-903A' "
+                             "AND secondary_id='Z9003'").fetchone()
+        hist = queries.event_history(s, row["event_id"])
+        assert [h["run_id"] for h in hist] == [1, 2]
+        d_miss = hist[1]["miss_km"] - hist[0]["miss_km"]
+        want = "stable" if abs(d_miss) < max(0.05, 0.1 * hist[0]["miss_km"]) else (
+            "converging" if d_miss < 0 else "growing")
+        assert row["trend"] == want
+
+
+def test_diff_lists_new_escalated_and_gone(two_runs):
+    store, _, pb, _ = two_runs
+    conn = sqlite3.connect(store)
+    conn.row_factory = sqlite3.Row
+    a, b = _rows(conn, 1), _rows(conn, 2)
+    b_start = conn.execute("SELECT window_start_unix_s FROM runs WHERE id=2").fetchone()[0]
+    b_events = {e["event_id"] for e in b}
+    rank_a = {x["event_id"]: x["attention_rank"] for x in a}
+    want_new = sum(1 for e in b if e["event_id"] not in rank_a)
+    want_esc = sum(1 for e in b if e["event_id"] in rank_a and e["attention_rank"] < rank_a[e["event_id"]])
+    want_gone = sum(1 for x in a if x["event_id"] not in b_events and x["tca_unix_s"] >= b_start)
+    m = re.search(r"Since run 1: (\d+) new, (\d+) escalated, (\d+) de-escalated, (\d+) gone", pb.stdout)
+    assert m, pb.stdout
+    assert (int(m[1]), int(m[2]), int(m[4])) == (want_new, want_esc, want_gone)
+    # DEB-001 passes LARKSPUR-1 at 06:30 on 2026-12-02, before run B's window: passed, not gone
+    early = [x for x in a if x["secondary_id"] == "Z9000" and x["tca_unix_s"] < b_start]
+    assert early and all(x["event_id"] not in b_events for x in early)
+    import json
+
+    doc = json.loads(open(two_runs[3] / "b.json").read())
+    assert doc["run_id"] == 2 and len(doc["changes"]["new"]) == want_new
+    assert len(doc["changes"]["gone"]) == want_gone
+
+
+def test_plain_progress_and_log_file(two_runs):
+    store, pa, *_ = two_runs
+    lines = [l for l in pa.stderr.splitlines() if re.match(r"^\d{4}-\d\d-\d\dT\d\d:\d\d:\d\dZ ", l)]
+    stages = {l.split()[1].rstrip(":") for l in lines}
+    assert {"loading", "screening", "risk", "storing"} <= stages
+    assert "\x1b" not in pa.stderr and "\r" not in pa.stderr
+    logs = glob.glob(os.path.join(os.path.dirname(store), "logs", "run-*.log"))
+    assert len(logs) == 2
+    assert any("committed run 1" in open(p).read() for p in logs)
+
+
+def test_exit_codes(tmp_path):
+    store = str(tmp_path / "s.sqlite")
+    # 3: --fail-on-act with act-level events (the demo's engineered head-on passes)
+    p = screener("run", "--config", os.path.join(DEMO, "demo.toml"), "--store", store, "--quiet",
+                 "--no-exports", "--fail-on-act")
+    assert p.returncode == 3 and "act level" in p.stderr
+    # 0 without the flag
+    p = screener("run", "--config", os.path.join(DEMO, "demo.toml"), "--store", store, "--quiet",
+                 "--no-exports")
+    assert p.returncode == 0, p.stderr
+    # 2: bad configuration, file and line named
+    bad = tmp_path / "bad.toml"
+    bad.write_text('[run]\nname = "x"\nwindow_dayz = 3\n[catalog]\nsources = ["nowhere.tle"]\n')
+    p = screener("run", "--config", str(bad), "--store", store)
+    assert p.returncode == 2 and f"{bad}:3" in p.stderr and "window_dayz" in p.stderr
+    assert "Traceback" not in p.stderr
+    # 4: the store is not a store
+    junk = tmp_path / "junk.sqlite"
+    junk.write_bytes(b"this is not sqlite" * 100)
+    p = screener("run", "--config", os.path.join(DEMO, "demo.toml"), "--store", str(junk), "--quiet")
+    assert p.returncode == 4 and "store" in p.stderr and "Traceback" not in p.stderr
+
+
+def test_one_off_run_with_screen_options(tmp_path):
+    store = str(tmp_path / "s.sqlite")
+    p = screener("run", "--catalog", os.path.join(DEMO, "catalog.tle"), "--primaries",
+                 os.path.join(DEMO, "fleet.json"), "--start", "2026-12-02T00:00:00Z", "--days", "0.5",
+                 "--store", store, "--quiet", "--workers", "1")
+    assert p.returncode == 0, p.stderr
+    with Store(store) as s:
+        assert queries.run(s).name == "one-off"
+
+
+def test_newer_schema_is_refused(tmp_path):
+    path = tmp_path / "s.sqlite"
+    Store(str(path)).close()
+    c = sqlite3.connect(path)
+    c.execute("PRAGMA user_version = 99")
+    c.close()
+    from screener.errors import ScreenerError
+
+    with pytest.raises(ScreenerError, match="newer"):
+        Store(str(path))

@@ -1,0 +1,195 @@
+"""Pc attached to screening encounters: covariance sources in order of preference, the
+element-set-history fit, the assumed model's label, hard-body radius, attention levels,
+ranking and cumulative risk.  The chain (states + covariances -> encounter plane -> Pc) is
+checked against an independent 3-D Monte Carlo of straight-line relative motion."""
+
+from __future__ import annotations
+
+import dataclasses
+import json
+import os
+
+import numpy as np
+import pytest
+from scipy import stats
+
+from screener import synth
+from screener.elements import read_oem
+from screener.elements.oem import OemCovariance
+from screener.risk.attach import attach_risk, cumulative_by_primary
+from screener.risk.attention import Thresholds
+from screener.risk.covariance import (ASSUMED, CONFIGURED, HISTORY, OEM, CovarianceSources,
+                                      SigmaGrowth, assumed, fit_history, from_oem)
+from screener.screening.ric import ric_basis
+from screener.timeutil import datetime_to_jd, parse_iso
+
+from .nightly import DEMO, screener
+
+JD0, FR0 = datetime_to_jd(parse_iso("2026-12-02T00:00:00Z"))
+
+
+def test_oem_covariance_in_an_inertial_frame_is_rotated_to_rtn():
+    """Constructed case: an RTN-diagonal covariance written in the OEM's inertial frame via the
+    RTN basis (common practice: R = r/|r|, N = r x v/|r x v|, T = N x R) comes back diagonal."""
+    oem = read_oem(os.path.join(DEMO, "larkspur-3.oem"))
+    seg = oem.segments[0]
+    k = 100
+    B = ric_basis(seg.r_km[k], seg.v_km_s[k])
+    want = np.diag([0.01 ** 2, 0.2 ** 2, 0.03 ** 2])
+    c = np.zeros((6, 6))
+    c[:3, :3] = B.T @ want @ B
+    t_jd, t_fr = seg.start_jd, seg.t_s[k] / 86400.0
+    seg.covariances[:] = [OemCovariance(t_jd, t_fr, seg.frame, c)]
+    got = from_oem(oem, t_jd, t_fr + 0.01)
+    assert got.source == OEM
+    np.testing.assert_allclose(got.cov_rtn_km2, want, atol=1e-12)
+
+
+def test_sources_in_order_of_preference():
+    oem = read_oem(os.path.join(DEMO, "larkspur-3.oem"))
+    base = synth.circular("X0001", "HIST", 700.0, 98.0, 10.0, 0.0, JD0, FR0 - 0.2)
+    sets = _history(base, offsets_km=lambda dt: 0.1 + 0.3 * dt)
+    src = CovarianceSources(oems=[oem], configured={"X0002": SigmaGrowth((0.05, 0.2, 0.05))},
+                            history={"X0001": sets, "X0002": sets})
+    assert src.estimate("2026-903A", "LEO", 0.5, JD0, FR0 + 0.3).source == OEM
+    assert src.estimate("X0002", "LEO", 0.5, JD0, FR0).source == CONFIGURED   # config beats history
+    assert src.estimate("X0001", "LEO", 0.5, JD0, FR0).source == HISTORY
+    got = src.estimate("X0003", "LEO", 0.5, JD0, FR0)
+    assert got.source == ASSUMED and got.label().startswith("assumed covariance")
+
+
+def _history(rec, offsets_km, backs=(4.0, 3.0, 2.0, 1.0)):
+    """Older sets of the same orbit whose in-track error is offsets_km(age) (alternating sign)."""
+    out = []
+    for n, back in enumerate(backs):
+        jd, fr = rec.epoch_jd, rec.epoch_fr - back
+        shift = offsets_km(back) * (1 if n % 2 else -1)
+        r, v = synth.state_of(rec, jd, fr + shift / 7.5 / 86400.0)
+        out.append(synth.fit_elements(r, v, jd, fr, rec.catalog_id, rec.name))
+    return out + [rec]
+
+
+def test_history_fit_recovers_a_constructed_error_growth():
+    """Constructed case: older element sets displaced along track by 0.1 km + 0.3 km/day of age.
+    Reference: the in-track differences measured directly with the sgp4 library at the newest
+    epoch, and numpy's least-squares line through them; the fit must agree with that line,
+    and both must be near the constructed 0.3 km/day."""
+    from sgp4.api import Satrec
+
+    rec = synth.circular("X0001", "HIST", 700.0, 98.0, 10.0, 0.0, JD0, FR0 - 0.2)
+    sets = _history(rec, lambda dt: 0.1 + 0.3 * dt)
+    fit = fit_history(sets)
+    assert fit is not None and fit.older_sets == 4
+    newest = sets[-1]
+    _, r0, v0 = Satrec.twoline2rv(*newest.to_tle()).sgp4(newest.epoch_jd, newest.epoch_fr)
+    t_hat = ric_basis(np.array(r0), np.array(v0))[1]
+    ages, errs = [], []
+    for s in sets[:-1]:
+        _, r, _ = Satrec.twoline2rv(*s.to_tle()).sgp4(newest.epoch_jd, newest.epoch_fr)
+        ages.append((newest.epoch_jd - s.epoch_jd) + (newest.epoch_fr - s.epoch_fr))
+        errs.append(abs(float(np.dot(np.array(r) - np.array(r0), t_hat))))
+    slope, icept = np.polyfit(ages, errs, 1)
+    assert fit.b_km_per_day[1] == pytest.approx(slope, rel=0.15)
+    assert slope == pytest.approx(0.3, rel=0.3)
+    assert fit.a_km[1] == pytest.approx(max(icept, 0.0), abs=0.08)
+    assert max(fit.b_km_per_day[0], fit.b_km_per_day[2]) < 0.03
+    est = fit.at(JD0, FR0 + 1.0)      # 1.2 d after the newest epoch
+    assert est.sigma_rtn_km[1] == pytest.approx(fit.a_km[1] + fit.b_km_per_day[1] * 1.2, rel=1e-6)
+    assert fit_history(_history(rec, lambda dt: 0.1, backs=(1.0,))) is None   # too few sets
+
+
+def test_assumed_model_grows_with_age_and_by_regime():
+    young, old = assumed("LEO", 0.5), assumed("LEO", 3.0)
+    assert old.sigma_rtn_km[1] > young.sigma_rtn_km[1]
+    assert assumed("HEO", 1.0).sigma_rtn_km[1] > assumed("LEO", 1.0).sigma_rtn_km[1]
+    assert young.assumed and "LEO model" in young.detail
+
+
+def test_attention_levels_and_the_dilution_rule():
+    t = Thresholds()          # defaults from common practice: act 1e-4, watch 1e-5
+    assert t.is_default and "defaults" in t.describe()
+    assert t.level(2e-4, 1e-3, False)[0] == "act"
+    assert t.level(1e-4, 1e-3, False)[0] == "act"
+    assert t.level(3e-5, 1e-3, False)[0] == "watch"
+    assert t.level(1e-7, 1e-6, True)[0] == "routine"
+    lvl, why = t.level(1e-7, 1e-3, True)     # low only because the covariance is large
+    assert lvl == "watch" and "dilution" in why
+    with pytest.raises(ValueError):
+        Thresholds(act_pc=1e-6, watch_pc=1e-5)
+
+
+def test_cumulative_per_primary_is_one_minus_product():
+    from screener.screening.encounter import Encounter
+
+    def enc(p, pc):
+        e = Encounter(p, p, "S", "S", 0.0, JD0, FR0, 1.0, 0, 0, 0, 1.0, 90.0)
+        e.risk = {"pc": pc}
+        return e
+
+    got = cumulative_by_primary([enc("A", 1e-3), enc("A", 2e-3), enc("B", 5e-5)])
+    assert got["A"] == pytest.approx(1 - (1 - 1e-3) * (1 - 2e-3), rel=1e-12)
+    assert got["B"] == pytest.approx(5e-5, rel=1e-12)
+
+
+def _demo_encounters():
+    from screener.config import load_config
+    from screener.pipeline import execute
+
+    cfg = load_config(os.path.join(DEMO, "demo.toml"))
+    cfg = dataclasses.replace(cfg, window_days=1.0, workers=1)
+    return cfg, execute(cfg).result.encounters
+
+
+@pytest.fixture(scope="module")
+def demo_encounters():
+    return _demo_encounters()
+
+
+def test_hard_body_radius_is_the_sum_of_configured_radii(demo_encounters):
+    cfg, encs = demo_encounters
+    e = next(e for e in encs if e.primary == "900000001")
+    assert e.risk["hbr_m"] == pytest.approx(6.5 + 5.0)     # configured 6.5 m + catalog default 5 m
+    e = next(e for e in encs if e.primary == "900000002")
+    assert e.risk["hbr_m"] == pytest.approx(4.0 + 5.0)     # fleet default 4 m
+
+
+def test_attached_pc_matches_a_3d_monte_carlo(demo_encounters):
+    """Independent check of projection + quadrature: sample the relative position from the
+    combined covariance (sum of both objects' RTN covariances rotated to inertial), move along
+    the relative velocity in a straight line, count misses under the hard-body radius; the
+    attached Pc must sit inside the Monte Carlo's 99 % Wilson interval."""
+    cfg, encs = demo_encounters
+    e = max(encs, key=lambda x: x.pc if x.relative_speed_km_s > 1 else 0)
+    assert e.pc > 1e-5, "enough hits for the Monte Carlo to say something"
+    r1, v1 = np.array(e.primary_r_km), np.array(e.primary_v_km_s)
+    r2, v2 = np.array(e.secondary_r_km), np.array(e.secondary_v_km_s)
+    c = sum(ric_basis(r, v).T @ np.array(e.risk[f"{who}_cov_rtn_km2"]) @ ric_basis(r, v)
+            for who, r, v in (("primary", r1, v1), ("secondary", r2, v2)))
+    rng = np.random.default_rng(12)
+    n = 4_000_000
+    rho = rng.multivariate_normal(r2 - r1, c, size=n)
+    w = (v2 - v1) / np.linalg.norm(v2 - v1)
+    perp = rho - np.outer(rho @ w, w)
+    hits = int((np.linalg.norm(perp, axis=1) < e.risk["hbr_m"] / 1000.0).sum())
+    z = stats.norm.ppf(0.995)
+    p = hits / n
+    centre = (p + z * z / (2 * n)) / (1 + z * z / n)
+    half = z * np.sqrt(p * (1 - p) / n + z * z / (4 * n * n)) / (1 + z * z / n)
+    assert centre - half <= e.pc <= centre + half, (e.pc, p, hits)
+
+
+def test_screen_json_and_summary_label_assumed_covariance(tmp_path):
+    out = tmp_path / "e.json"
+    p = screener("screen", "--catalog", os.path.join(DEMO, "catalog.tle"), "--primaries",
+                 os.path.join(DEMO, "fleet.json"), "--start", "2026-12-02T00:00:00Z", "--days", "1",
+                 "--json", str(out), "--workers", "1")
+    assert p.returncode == 0, p.stderr
+    encs = json.loads(out.read_text())["encounters"]
+    assert encs and all(e["covariance_source"] == "assumed covariance" for e in encs)
+    assert all(e["assumed_covariance"] for e in encs)
+    pcs = [e["pc"] for e in encs]
+    assert "Cumulative Pc per primary" in p.stdout and "A = Pc from assumed covariance" in p.stdout
+    lines = [l for l in p.stdout.splitlines()
+             if l[:3].strip().isdigit() and l.split()[1] in ("act", "watch", "routine")]
+    shown = [float(l.split()[2]) for l in lines]
+    assert shown == sorted(shown, reverse=True) and max(pcs) == pytest.approx(shown[0], rel=1e-2)

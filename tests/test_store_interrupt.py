@@ -1,0 +1,116 @@
+"""A run is stored whole or not at all.  A child `screener run` is stopped at known points
+inside its write transaction (SCREENER_TEST_HOLD) and killed with SIGKILL, SIGTERM or SIGINT;
+the store must pass SQLite's integrity check with the earlier run intact, and a reader during
+the write sees the old state (WAL)."""
+
+from __future__ import annotations
+
+import os
+import signal
+import sqlite3
+import subprocess
+import sys
+import time
+
+import pytest
+
+from .nightly import write_config
+
+
+def _counts(path):
+    c = sqlite3.connect(path)
+    try:
+        return tuple(c.execute(f"SELECT count(*) FROM {t}").fetchone()[0]
+                     for t in ("runs", "encounters", "events", "elsets"))
+    finally:
+        c.close()
+
+
+@pytest.fixture(scope="module")
+def base(tmp_path_factory):
+    d = tmp_path_factory.mktemp("interrupt")
+    cfg = write_config(d / "c.toml", days=0.5)
+    store = d / "base.sqlite"
+    p = subprocess.run([sys.executable, "-m", "screener.cli.main", "run", "--config", cfg, "--store",
+                        str(store), "--quiet"], capture_output=True, text=True, timeout=600)
+    assert p.returncode == 0, p.stderr
+    return cfg, store
+
+
+def _copy_store(src, dst):
+    a, b = sqlite3.connect(src), sqlite3.connect(dst)
+    a.backup(b)
+    a.close()
+    b.close()
+
+
+def _start(cfg, store, hold):
+    env = dict(os.environ, SCREENER_TEST_HOLD=hold) if hold else dict(os.environ)
+    return subprocess.Popen([sys.executable, "-m", "screener.cli.main", "run", "--config", cfg,
+                             "--store", str(store)], stderr=subprocess.PIPE, stdout=subprocess.PIPE,
+                            text=True, env=env)
+
+
+def _wait_for(proc, needle, timeout_s=300):
+    t_end = time.monotonic() + timeout_s
+    seen = []
+    while time.monotonic() < t_end:
+        line = proc.stderr.readline()
+        if not line:
+            break
+        seen.append(line)
+        if needle in line:
+            return
+    proc.kill()
+    raise AssertionError(f"child never reached {needle!r}: {''.join(seen)[-2000:]}")
+
+
+@pytest.mark.parametrize("hold,sig", [
+    ("before-begin", signal.SIGKILL),
+    ("after-run-row", signal.SIGKILL),
+    ("after-events", signal.SIGTERM),
+    ("before-commit", signal.SIGINT),
+    ("before-commit", signal.SIGKILL),
+    (None, signal.SIGKILL),            # during the screening itself
+])
+def test_interrupted_run_leaves_the_store_consistent(base, tmp_path, hold, sig):
+    cfg, src = base
+    store = tmp_path / "s.sqlite"
+    _copy_store(src, store)
+    before = _counts(store)
+    proc = _start(cfg, store, hold)
+    _wait_for(proc, f"screener-hold:{hold}" if hold else "screening: started")
+    if hold and hold != "before-begin":
+        # a concurrent reader during the open write transaction sees the old state
+        assert _counts(store) == before
+    proc.send_signal(sig)
+    rc = proc.wait(timeout=120)
+    proc.stderr.close()
+    proc.stdout.close()
+    assert rc != 0
+    if sig == signal.SIGTERM:
+        assert rc == 143
+    if sig == signal.SIGINT:
+        assert rc == 130
+    c = sqlite3.connect(store)
+    assert c.execute("PRAGMA integrity_check").fetchone()[0] == "ok"
+    c.close()
+    assert _counts(store) == before, "nothing of the interrupted run is stored, nothing lost"
+    # and the store still takes the next run
+    p = subprocess.run([sys.executable, "-m", "screener.cli.main", "run", "--config", cfg, "--store",
+                        str(store), "--quiet"], capture_output=True, text=True, timeout=600)
+    assert p.returncode == 0, p.stderr
+    assert _counts(store)[0] == before[0] + 1
+
+
+def test_reader_sees_the_new_run_after_commit(base, tmp_path):
+    cfg, src = base
+    store = tmp_path / "s.sqlite"
+    _copy_store(src, store)
+    reader = sqlite3.connect(store)
+    n0 = reader.execute("SELECT count(*) FROM runs").fetchone()[0]
+    p = subprocess.run([sys.executable, "-m", "screener.cli.main", "run", "--config", cfg, "--store",
+                        str(store), "--quiet"], capture_output=True, text=True, timeout=600)
+    assert p.returncode == 0, p.stderr
+    assert reader.execute("SELECT count(*) FROM runs").fetchone()[0] == n0 + 1
+    reader.close()
