@@ -6,7 +6,7 @@ BIN := $(VENV)/bin
 STAMP := $(VENV)/.installed
 TEST_STAMP := $(VENV)/.installed-test
 
-.PHONY: demo test bench clean
+.PHONY: demo test bench bench-tui clean
 
 $(BIN)/python:
 	$(PY) -m venv $(VENV)
@@ -29,5 +29,8 @@ test: $(TEST_STAMP)
 bench: $(TEST_STAMP)
 	$(BIN)/python -m screener.bench
 
+bench-tui: $(TEST_STAMP)
+	$(BIN)/python -m screener.bench_tui
+
 clean:
-	rm -rf $(VENV) .pytest_cache
+	rm -rf $(VENV) .pytest_cache demo-out

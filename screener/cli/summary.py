@@ -46,7 +46,8 @@ def render(result, limit: int = 25, thresholds=None, diff=None) -> str:
                      f"{'v km/s':>6} cov")
         for n, e in enumerate(encs[:limit], start=1):
             rk = e.risk
-            flags = ("A" if rk.get("assumed_covariance") else "") + ("D" if rk.get("dilution_region") else "")
+            flags = (("A" if rk.get("assumed_covariance") else "") + ("D" if rk.get("dilution_region") else "")
+                     + ("S" if rk.get("short_encounter_ok") is False else ""))
             lines.append(f"{n:>3} {rk.get('attention', ''):<7} {fmt_pc(e.pc)} {fmt_log10(e.pc)} "
                          f"{e.primary:<12.12} {e.secondary:<12.12} {iso_z(e.tca, 3):<24} "
                          f"{e.miss_km:8.3f} {e.radial_km:7.3f} {e.in_track_km:7.3f} "
@@ -54,7 +55,8 @@ def render(result, limit: int = 25, thresholds=None, diff=None) -> str:
         if len(encs) > limit:
             lines.append(f"    ... {len(encs) - limit} more (use --json for all)")
         lines.append("cov flags: A = Pc from assumed covariance (a regime model, not measured), "
-                     "D = dilution region (Pc low because the uncertainty is large; not reassuring)")
+                     "D = dilution region (Pc low because the uncertainty is large; not reassuring), "
+                     "S = slow or long encounter (the 2-D short-encounter Pc is doubtful)")
         cum = cumulative_by_primary(encs)
         if cum and len(cum) < 50:
             lines.append("")

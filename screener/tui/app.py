@@ -34,12 +34,12 @@ class ScreenerApp(App):
 
     def on_mount(self) -> None:
         self.push_screen(TriageScreen())
-        self._check_size()
+        self.check_size()
 
     def on_resize(self, event) -> None:
-        self._check_size()
+        self.check_size()
 
-    def _check_size(self) -> None:
+    def check_size(self) -> None:
         w, h = self.size
         small = w < MIN_COLS or h < MIN_ROWS
         showing = isinstance(self.screen, TooSmallScreen)
@@ -115,4 +115,10 @@ def make_app(store_path: str | None = None, config_path: str | None = None,
 
     if light is None:
         light = os.environ.get("SCREENER_THEME", "").lower() == "light"
+    # Background screenings use spawned worker processes.  Start multiprocessing's resource
+    # tracker now, while stderr is still the real one: once textual has redirected stderr the
+    # tracker cannot be started (its stderr descriptor would be invalid).
+    from multiprocessing import resource_tracker
+
+    resource_tracker.ensure_running()
     return ScreenerApp(store_path or default_store_path(), config_path, now=now, light=light)

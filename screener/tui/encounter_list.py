@@ -36,7 +36,7 @@ COLUMNS = (
 
 
 def flags(r: EncounterRow) -> str:
-    """A: assumed covariance; D: dilution region; S: slow pass (2-D Pc doubtful)."""
+    """A: assumed covariance; D: dilution region; S: slow pass under 0.1 km/s (2-D Pc doubtful)."""
     return (("A" if "assumed" in r.covariance_source else "") + ("D" if r.dilution else "")
             + ("S" if r.relative_speed_km_s < 0.1 else ""))
 

@@ -142,6 +142,7 @@ class EventScreen(Screen):
         self.query_one("#event-body").focus()
 
     def on_resize(self) -> None:
+        self.app.check_size()
         self._layout()
 
     def _layout(self) -> None:

@@ -20,6 +20,7 @@ class TooSmallScreen(ModalScreen):
 
     def on_resize(self) -> None:
         self.update_text()
+        self.app.check_size()
 
     def update_text(self) -> None:
         w, h = self.app.size

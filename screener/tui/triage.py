@@ -3,7 +3,9 @@ starts background screenings; exports and copies the selected event."""
 
 from __future__ import annotations
 
+import multiprocessing as mp
 import threading
+from concurrent.futures import ProcessPoolExecutor
 
 from textual import on, work
 from textual.app import ComposeResult
@@ -64,6 +66,9 @@ class TriageScreen(Screen):
         self.query_one("#search", Input).display = False
         self.load_run(None)
         self.query_one(EncounterList).focus()
+
+    def on_resize(self) -> None:
+        self.app.check_size()
 
     # ----- data
     def load_run(self, run_id: int | None) -> None:
@@ -234,17 +239,23 @@ class TriageScreen(Screen):
             self.app.call_from_thread(self._status, f"screening {cfg.name}: {stage} {done}/{total} "
                                                     f"(x cancels)")
 
+        # The engine always runs in worker processes here, even for workers = 1: SGP4's array
+        # propagation holds the GIL, and in this process it would stall the UI.
+        pool = ProcessPoolExecutor(max_workers=max(1, cfg.workers), mp_context=mp.get_context("spawn"))
         try:
             store = Store(self.app.store_path)
             try:
-                out = execute(cfg, store=store, progress=progress, cancel=cancel)
+                out = execute(cfg, store=store, progress=progress, cancel=cancel, executor=pool)
             finally:
                 store.close()
         except Cancelled:
+            pool.shutdown(wait=False, cancel_futures=True)
             self.app.call_from_thread(self._finished, None, "screening cancelled; nothing stored")
         except ScreenerError as exc:
+            pool.shutdown(wait=False, cancel_futures=True)
             self.app.call_from_thread(self._finished, None, f"screening failed: {exc}")
         else:
+            pool.shutdown(wait=False)
             self.app.call_from_thread(self._finished, out.run_id,
                                       f"run {out.run_id} stored: {len(out.result.encounters)} "
                                       f"encounters; {out.diff.counts()}")

@@ -1,0 +1,236 @@
+"""The TUI driven by textual's Pilot on a real store built from the demo scenario: every
+interaction (sort, filters, search, open an event, plots, export, copy, help, start and cancel
+a screening, terminal too small), and the virtual list on a 50,000-encounter store."""
+
+from __future__ import annotations
+
+import datetime as dt
+import os
+import shutil
+import sqlite3
+
+import pytest
+
+from screener.risk import read_cdm
+from screener.tui import make_app
+from screener.tui.encounter_list import EncounterList
+from screener.tui.event_view import EventScreen
+from screener.tui.help import HelpScreen
+from screener.tui.too_small import TooSmallScreen
+from screener.tui.triage import TriageScreen
+
+from .nightly import write_config
+
+NOW = dt.datetime(2026, 12, 2, tzinfo=dt.timezone.utc).timestamp()
+pytestmark = pytest.mark.timeout(120)
+
+
+@pytest.fixture
+def store(demo_store_path, tmp_path):
+    dst = tmp_path / "store.sqlite"
+    a, b = sqlite3.connect(demo_store_path), sqlite3.connect(dst)
+    a.backup(b)
+    a.close()
+    b.close()
+    return str(dst)
+
+
+def _db_rows(store, run_id=2):
+    c = sqlite3.connect(store)
+    c.row_factory = sqlite3.Row
+    return c.execute("SELECT * FROM encounters WHERE run_id=?", (run_id,)).fetchall()
+
+
+def _list(app) -> EncounterList:
+    return app.screen.query_one(EncounterList)
+
+
+def _shown(app):
+    lst = _list(app)
+    return [lst.model.row(k) for k in range(len(lst.model))]
+
+
+async def test_opens_on_the_latest_run_ranked(store):
+    app = make_app(store, now=lambda: NOW)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await pilot.pause()
+        assert isinstance(app.screen, TriageScreen)
+        rows = _shown(app)
+        db = _db_rows(store)
+        assert len(rows) == len(db)
+        keys = [(-r.pc, r.miss_km) for r in rows]
+        assert keys == sorted(keys), "ranked by Pc, then miss"
+        text = str(app.screen.query_one("#run-line").render())
+        assert "run 2" in text
+        assert "Advisory only" in str(app.screen.query_one(".caution").render())
+
+
+async def test_sort_and_reverse(store):
+    app = make_app(store, now=lambda: NOW)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await pilot.press("s")
+        miss = [r.miss_km for r in _shown(app)]
+        assert miss == sorted(miss)
+        await pilot.press("v")
+        assert [r.miss_km for r in _shown(app)] == sorted(miss, reverse=True)
+        await pilot.press("s")
+        tca = [r.tca_unix_s for r in _shown(app)]
+        assert tca == sorted(tca)
+
+
+async def test_filters_level_primary_window_and_escape(store):
+    app = make_app(store, now=lambda: NOW)
+    db = _db_rows(store)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await pilot.press("l")
+        rows = _shown(app)
+        assert rows and {r.attention for r in rows} == {"act"}
+        assert len(rows) == sum(1 for r in db if r["attention"] == "act")
+        await pilot.press("escape", "p")
+        rows = _shown(app)
+        first = sorted({r["primary_id"] for r in db})[0]
+        assert {r.primary_id for r in rows} == {first}
+        await pilot.press("escape", "t")           # TCA within the next 24 h of "now"
+        rows = _shown(app)
+        assert all(NOW <= r.tca_unix_s <= NOW + 86400 for r in rows)
+        assert len(rows) == sum(1 for r in db if NOW <= r["tca_unix_s"] <= NOW + 86400)
+        await pilot.press("escape")
+        assert len(_shown(app)) == len(db)
+
+
+async def test_search_over_ids_and_names(store):
+    app = make_app(store, now=lambda: NOW)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await pilot.press("slash")
+        await pilot.press(*"deb-004")
+        await pilot.press("enter")
+        rows = _shown(app)
+        assert rows and all("DEB-004" in r.secondary_name for r in rows)
+        assert "search 'deb-004'" in str(app.screen.query_one("#filter-line").render())
+        assert _list(app).has_focus
+
+
+async def test_open_event_plots_and_back(store):
+    app = make_app(store, now=lambda: NOW)
+    async with app.run_test(size=(80, 24)) as pilot:
+        top = _shown(app)[0]
+        await pilot.press("enter")
+        await pilot.pause()
+        assert isinstance(app.screen, EventScreen) and app.screen.encounter_id == top.id
+        facts = str(app.screen.query_one("#event-facts").render())
+        for needle in ("TCA", "radial", "in-track", "cross-track", "crossing angle", "period",
+                       "covariance", "2-D quadrature", "max Pc", "hard-body radius"):
+            assert needle in facts
+        plot = str(app.screen.query_one("#event-plot").render())
+        assert "range (km) vs time from TCA" in plot
+        await pilot.press("2")
+        assert "encounter plane" in str(app.screen.query_one("#event-plot").render())
+        await pilot.press("3")
+        plot = str(app.screen.query_one("#event-plot").render())
+        assert "history of this event" in plot
+        assert "Advisory only" in str(app.screen.query_one(".caution").render())
+        await pilot.press("escape")
+        assert isinstance(app.screen, TriageScreen)
+
+
+async def test_export_cdm_and_copy_line(store):
+    app = make_app(store, now=lambda: NOW)
+    async with app.run_test(size=(80, 24)) as pilot:
+        top = _shown(app)[0]
+        await pilot.press("e")
+        path = app.last_export
+        assert os.path.exists(path) and path.startswith(os.path.dirname(store))
+        cdm = read_cdm(path)
+        assert cdm.object1_designator == top.primary_id
+        assert cdm.object2_designator == top.secondary_id
+        await pilot.press("y")
+        assert app.clipboard.startswith(f"{top.primary_id} ({top.primary_name}) x {top.secondary_id}")
+        assert "advisory only" in app.clipboard
+        await pilot.press("enter", "e", "y")
+        assert isinstance(app.screen, EventScreen) and os.path.exists(app.last_export)
+
+
+async def test_help_is_generated_from_the_bindings(store):
+    app = make_app(store, now=lambda: NOW)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await pilot.press("question_mark")
+        assert isinstance(app.screen, HelpScreen)
+        text = str(app.screen.query_one("#help-text").render())
+        for b in TriageScreen.BINDINGS + EncounterList.BINDINGS:
+            assert b.description in text
+        await pilot.press("escape")
+        await pilot.press("enter", "question_mark")
+        text = str(app.screen.query_one("#help-text").render())
+        for b in EventScreen.BINDINGS:
+            assert b.description in text
+
+
+async def test_start_a_screening_in_the_background(store, tmp_path):
+    cfg = write_config(tmp_path / "c.toml", days=0.5, name="larkspur-nightly")
+    app = make_app(store, cfg, now=lambda: NOW)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await pilot.press("n")
+        await app.workers.wait_for_complete()
+        await pilot.pause()
+        assert "run 3 stored" in str(app.screen.query_one("#status").render())
+        assert "run 3" in str(app.screen.query_one("#run-line").render())
+        c = sqlite3.connect(store)
+        assert c.execute("SELECT count(*) FROM runs").fetchone()[0] == 3
+
+
+async def test_cancel_a_screening(store, tmp_path):
+    cfg = write_config(tmp_path / "c.toml", days=3.0)
+    app = make_app(store, cfg, now=lambda: NOW)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await pilot.press("n", "x")
+        await app.workers.wait_for_complete()
+        await pilot.pause()
+        assert "cancelled" in str(app.screen.query_one("#status").render())
+        c = sqlite3.connect(store)
+        assert c.execute("SELECT count(*) FROM runs").fetchone()[0] == 2, "nothing stored"
+        assert "run 2" in str(app.screen.query_one("#run-line").render())
+
+
+async def test_terminal_too_small(store):
+    app = make_app(store, now=lambda: NOW)
+    async with app.run_test(size=(70, 20)) as pilot:
+        await pilot.pause()
+        assert isinstance(app.screen, TooSmallScreen)
+        assert "Terminal too small" in str(app.screen.query_one("#too-small").render())
+        await pilot.resize_terminal(80, 24)
+        await pilot.pause()
+        assert isinstance(app.screen, TriageScreen)
+
+
+async def test_missing_store_says_so(tmp_path):
+    app = make_app(str(tmp_path / "none.sqlite"), now=lambda: NOW)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await pilot.pause()
+        assert "No store at" in str(app.screen.query_one("#run-line").render())
+        await pilot.press("enter", "s", "e", "y", "n")   # nothing to act on: no crash
+        assert isinstance(app.screen, TriageScreen)
+
+
+@pytest.fixture(scope="module")
+def big_store(tmp_path_factory, demo_store_path):
+    """50,000 encounters: the demo's tonight run, its rows repeated with shifted TCAs."""
+    from screener.bench_tui import make_big_store
+
+    path = tmp_path_factory.mktemp("big") / "big.sqlite"
+    shutil.copy(demo_store_path, path)
+    make_big_store(str(path), 50_000)
+    return str(path)
+
+
+async def test_fifty_thousand_rows_are_virtual(big_store):
+    app = make_app(big_store, now=lambda: NOW)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await pilot.pause()
+        lst = _list(app)
+        assert len(lst.model) == 50_000
+        assert lst.virtual_size.height == 50_000 and not lst.children
+        await pilot.press("end")
+        assert lst.cursor == 49_999
+        assert lst.scroll_offset.y >= 49_999 - lst.size.height
+        await pilot.press("pageup", "home")
+        assert lst.cursor == 0 and lst.scroll_offset.y == 0

@@ -1,0 +1,58 @@
+"""Real-terminal smoke test: `screener tui` in tmux (80x24), keys sent, the captured screen
+checked for the ranked list, the event view and the caution."""
+
+from __future__ import annotations
+
+import os
+import shutil
+import subprocess
+import sys
+import time
+
+import pytest
+
+pytestmark = pytest.mark.skipif(shutil.which("tmux") is None, reason="tmux is not installed "
+                                "(.ci/run installs it)")
+
+
+def _capture(session):
+    return subprocess.run(["tmux", "capture-pane", "-p", "-t", session], capture_output=True,
+                          text=True).stdout
+
+
+def _wait(session, needle, timeout_s=60):
+    t_end = time.monotonic() + timeout_s
+    while time.monotonic() < t_end:
+        screen = _capture(session)
+        if needle in screen:
+            return screen
+        time.sleep(0.3)
+    raise AssertionError(f"{needle!r} never appeared; screen was:\n{_capture(session)}")
+
+
+def test_tui_in_tmux(demo_store_path):
+    session = f"screener-smoke-{os.getpid()}"
+    cmd = f"{sys.executable} -m screener.cli.main tui --store {demo_store_path}"
+    env = dict(os.environ, TERM="xterm-256color")
+    subprocess.run(["tmux", "new-session", "-d", "-s", session, "-x", "80", "-y", "24", cmd],
+                   check=True, env=env)
+    try:
+        screen = _wait(session, "run 2")
+        assert "level" in screen and "miss km" in screen and "act" in screen
+        assert "Advisory only" in screen
+        subprocess.run(["tmux", "send-keys", "-t", session, "Enter"], check=True)
+        screen = _wait(session, "event ")
+        assert "TCA" in screen and "Advisory only" in screen
+        subprocess.run(["tmux", "send-keys", "-t", session, "Escape"], check=True)
+        _wait(session, "showing")
+        time.sleep(0.5)   # Esc waits ESCDELAY (100 ms) for a following key; let it settle
+        subprocess.run(["tmux", "send-keys", "-t", session, "q"], check=True)
+        t_end = time.monotonic() + 20
+        while time.monotonic() < t_end:
+            if subprocess.run(["tmux", "has-session", "-t", session], capture_output=True).returncode:
+                break
+            time.sleep(0.3)
+        else:
+            raise AssertionError(f"q did not quit the TUI; screen:\n{_capture(session)}")
+    finally:
+        subprocess.run(["tmux", "kill-session", "-t", session], capture_output=True)
