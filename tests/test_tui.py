@@ -90,6 +90,11 @@ async def test_filters_level_primary_window_and_escape(store):
         rows = _shown(app)
         first = sorted({r["primary_id"] for r in db})[0]
         assert {r.primary_id for r in rows} == {first}
+        want = 1.0
+        for r in db:
+            if r["primary_id"] == first:
+                want *= 1.0 - r["pc"]
+        assert f"cumulative Pc {1.0 - want:.1e}" in str(app.screen.query_one("#filter-line").render())
         await pilot.press("escape", "t")           # TCA within the next 24 h of "now"
         rows = _shown(app)
         assert all(NOW <= r.tca_unix_s <= NOW + 86400 for r in rows)
@@ -127,7 +132,7 @@ async def test_open_event_plots_and_back(store):
         assert "encounter plane" in str(app.screen.query_one("#event-plot").render())
         await pilot.press("3")
         plot = str(app.screen.query_one("#event-plot").render())
-        assert "history of this event" in plot
+        assert "history of this event" in plot and "log10 Pc vs run" in plot
         assert "Advisory only" in str(app.screen.query_one(".caution").render())
         await pilot.press("escape")
         assert isinstance(app.screen, TriageScreen)
@@ -234,3 +239,13 @@ async def test_fifty_thousand_rows_are_virtual(big_store):
         assert lst.scroll_offset.y >= 49_999 - lst.size.height
         await pilot.press("pageup", "home")
         assert lst.cursor == 0 and lst.scroll_offset.y == 0
+
+
+async def test_no_color_and_light_theme(store, monkeypatch):
+    """NO_COLOR (https://no-color.org, honoured by textual) and the light theme both run."""
+    monkeypatch.setenv("NO_COLOR", "1")
+    app = make_app(store, now=lambda: NOW, light=True)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await pilot.press("enter", "2", "escape")
+        assert app.no_color and app.theme == "textual-light"
+        assert isinstance(app.screen, TriageScreen)

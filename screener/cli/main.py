@@ -43,6 +43,8 @@ def add_screen_args(p: argparse.ArgumentParser, required: bool = True) -> None:
                    help="flag element sets older than this at the start (default 7)")
     p.add_argument("--workers", type=int, default=min(2, os.cpu_count() or 1),
                    help="local processes (default: up to 2)")
+    p.add_argument("--dask", metavar="ADDRESS", help="run the tasks on the Dask scheduler at "
+                   "ADDRESS (tcp://host:port) instead of local processes")
     p.add_argument("--quiet", action="store_true", help="no summary or progress")
 
 
@@ -60,9 +62,11 @@ def config_from_args(args):
         parse_start(args.start)
     vol = parse_volume(args.radius_km, args.ric_km)
     ric = tuple(vol.half_km) if args.ric_km else None
-    return config_from_options(args.catalog, args.primaries, args.start, args.days,
-                               args.radius_km, ric, max(1, args.workers), args.max_age_days,
-                               args.strict, args.hbr_m)
+    cfg = config_from_options(args.catalog, args.primaries, args.start, args.days,
+                              args.radius_km, ric, max(1, args.workers), args.max_age_days,
+                              args.strict, args.hbr_m)
+    cfg.dask_scheduler = args.dask
+    return cfg
 
 
 def cmd_screen(args) -> int:

@@ -60,6 +60,7 @@ class Config:
     radius_km: float = 5.0
     ric_km: tuple[float, float, float] | None = None
     workers: int = 2
+    dask_scheduler: str | None = None  # e.g. "tcp://10.0.0.5:8786": run tasks on that cluster
     max_elset_age_days: float = 7.0
     strict: bool = False
     fleet_default_radius_m: float = DEFAULT_RADIUS_M
@@ -202,7 +203,8 @@ def load_config(path: str) -> Config:
 def _build(data: dict, rd: _Reader, base: str, path: str | None) -> Config:
     rd.table(data, (), TOP)
     run = rd.table(data.get("run", {}), ("run",),
-                   {"name", "start", "window_days", "workers", "max_elset_age_days", "strict"})
+                   {"name", "start", "window_days", "workers", "max_elset_age_days", "strict",
+                    "dask_scheduler"})
     fleet = rd.table(data.get("fleet", {}), ("fleet",), {"files", "default_radius_m", "objects"})
     cat = rd.table(data.get("catalog", {}), ("catalog",), {"sources", "default_radius_m", "objects", "as_of"})
     vol = rd.table(data.get("volume", {}), ("volume",), {"shape", "radius_km", "ric_km"})
@@ -230,6 +232,7 @@ def _build(data: dict, rd: _Reader, base: str, path: str | None) -> Config:
     cfg.workers = int(rd.num(run, ("run", "workers"), 2, lo=1, hi=256))
     cfg.max_elset_age_days = rd.num(run, ("run", "max_elset_age_days"), 7.0, positive=True)
     cfg.strict = rd.boolean(run, ("run", "strict"), False)
+    cfg.dask_scheduler = rd.string(run, ("run", "dask_scheduler"), None)
 
     cfg.fleet_default_radius_m = rd.num(fleet, ("fleet", "default_radius_m"), DEFAULT_RADIUS_M, positive=True)
     for oid, m in rd.table(fleet.get("objects", {}), ("fleet", "objects"), None).items():

@@ -18,6 +18,7 @@ name = "nightly"
 start = "today"              # "today" = 00:00 UTC of the run day, "now", or ISO 8601 UTC
 window_days = 3.0
 workers = 2                  # local processes
+# dask_scheduler = "tcp://scheduler-host:8786"   # run the tasks on a Dask cluster instead
 max_elset_age_days = 7.0     # older element sets are screened but flagged
 strict = false               # true: stop at the first bad record instead of skipping it
 

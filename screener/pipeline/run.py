@@ -116,7 +116,17 @@ def execute(cfg: Config, store=None, progress: Progress | None = None, cancel=No
         note(f"loaded {len(inputs.primaries) + len(inputs.oems)} primaries, {len(inputs.catalog)} "
              f"catalog objects in {time.perf_counter() - t0:.1f} s")
         req = build_request(cfg, inputs, jd0, fr0)
-        result = screen(req, progress=report, cancel=cancel, executor=executor)
+        client = None
+        if executor is None and cfg.dask_scheduler:
+            from .cluster import connect
+
+            client, executor = connect(cfg.dask_scheduler)
+            note(f"running tasks on the Dask cluster at {cfg.dask_scheduler}")
+        try:
+            result = screen(req, progress=report, cancel=cancel, executor=executor)
+        finally:
+            if client is not None:
+                client.close()
         note(f"screening: {len(result.encounters)} encounters, {result.stats.get('wall_s', 0):.1f} s")
         report("risk", 0, 1)
         add_risk(cfg, inputs, result)

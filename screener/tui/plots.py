@@ -137,13 +137,17 @@ def plane_plot(xm_m: float, ym_m: float, sx_m: float, sy_m: float, hbr_m: float,
 def history_lines(history: list[dict], cols: int, rows: int) -> list[str]:
     """The event across runs: a table (newest last) and, with two or more runs, miss vs run."""
     out = ["history of this event across runs (oldest first)",
-           f"{'run':>4} {'started UTC':<20} {'TCA UTC':<24} {'miss km':>8} {'Pc':>8} level   covariance"]
+           f"{'run':>4} {'started UTC':<20} {'TCA UTC':<24} {'miss km':>8} {'Pc':>8} level   covariance"[:cols]]
     for h in history[-(rows // 2):]:
         out.append(f"{h['run_id']:>4} {h['started_utc'][:19]:<20} {h['tca_utc'][:23]:<24} "
                    f"{h['miss_km']:8.3f} {h['pc']:8.1e} {h['attention']:<7} {h['covariance_source']}"[:cols])
     if len(history) >= 2:
-        out += line_plot(list(range(1, len(history) + 1)), [h["miss_km"] for h in history], cols,
-                         max(4, rows - len(out)), "run (oldest first)", "miss (km)")
+        runs = list(range(1, len(history) + 1))
+        left = max(8, rows - len(out))
+        out += line_plot(runs, [h["miss_km"] for h in history], cols, left // 2, "run (oldest first)",
+                         "miss (km)")
+        out += line_plot(runs, [math.log10(h["pc"]) if h["pc"] > 0 else float("nan") for h in history],
+                         cols, left - left // 2, "run (oldest first)", "log10 Pc")
     else:
         out.append("(one run so far: no trend yet)")
     return out

@@ -109,6 +109,11 @@ class TriageScreen(Screen):
         m = self.model
         text = (f"sort {m.describe_sort()} | {m.filters.describe()} | showing {len(m)} of {len(m.rows)}"
                 if m else "")
+        if m and m.filters.primary:
+            from ..risk.pc import cumulative
+
+            pcs = [r.pc for r in m.rows if r.primary_id == m.filters.primary]
+            text += f" | cumulative Pc {cumulative(pcs):.1e}"
         self.query_one("#filter-line", Static).update(text)
 
     def _changed(self) -> None:
