@@ -4,9 +4,22 @@ from __future__ import annotations
 
 import pytest
 
+import sqlite3
+
 from .nightly import demo_store
 
 
 @pytest.fixture(scope="session")
 def demo_store_path(tmp_path_factory):
     return demo_store(tmp_path_factory.mktemp("demo-store"))
+
+
+@pytest.fixture
+def store(demo_store_path, tmp_path):
+    """A private copy of the demo store (tests may write to it)."""
+    dst = tmp_path / "store.sqlite"
+    a, b = sqlite3.connect(demo_store_path), sqlite3.connect(dst)
+    a.backup(b)
+    a.close()
+    b.close()
+    return str(dst)

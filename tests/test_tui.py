@@ -25,16 +25,6 @@ NOW = dt.datetime(2026, 12, 2, tzinfo=dt.timezone.utc).timestamp()
 pytestmark = pytest.mark.timeout(120)
 
 
-@pytest.fixture
-def store(demo_store_path, tmp_path):
-    dst = tmp_path / "store.sqlite"
-    a, b = sqlite3.connect(demo_store_path), sqlite3.connect(dst)
-    a.backup(b)
-    a.close()
-    b.close()
-    return str(dst)
-
-
 def _db_rows(store, run_id=2):
     c = sqlite3.connect(store)
     c.row_factory = sqlite3.Row

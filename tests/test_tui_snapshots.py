@@ -4,7 +4,6 @@ pyproject.toml so the SVGs stay comparable).  Update only after looking at the d
 
 from __future__ import annotations
 
-import sqlite3
 
 import pytest
 
@@ -13,16 +12,6 @@ from screener.tui import make_app
 from .test_tui import NOW
 
 pytestmark = pytest.mark.timeout(120)
-
-
-@pytest.fixture
-def store(demo_store_path, tmp_path):
-    dst = tmp_path / "store.sqlite"
-    a, b = sqlite3.connect(demo_store_path), sqlite3.connect(dst)
-    a.backup(b)
-    a.close()
-    b.close()
-    return str(dst)
 
 
 @pytest.mark.parametrize("size", [(80, 24), (160, 48)])

@@ -28,11 +28,11 @@ def one_line(r) -> str:
 
 class TriageScreen(Screen):
     BINDINGS = [
-        Binding("s", "sort", "Sort"),
-        Binding("v", "reverse", "Reverse"),
-        Binding("l", "level", "Level"),
-        Binding("p", "primary", "Primary"),
-        Binding("t", "window", "TCA window"),
+        Binding("s", "model('cycle_sort')", "Sort"),
+        Binding("v", "model('flip')", "Reverse"),
+        Binding("l", "model('cycle_level')", "Level"),
+        Binding("p", "model('cycle_primary')", "Primary"),
+        Binding("t", "model('cycle_window')", "TCA window"),
         Binding("slash", "search", "Search"),
         Binding("escape", "clear", "Clear filters", show=False),
         Binding("n", "new_run", "New screening"),
@@ -121,24 +121,9 @@ class TriageScreen(Screen):
         self._update_filter_line()
 
     # ----- list actions
-    def action_sort(self) -> None:
-        self.model.cycle_sort()
-        self._changed()
-
-    def action_reverse(self) -> None:
-        self.model.flip()
-        self._changed()
-
-    def action_level(self) -> None:
-        self.model.cycle_level()
-        self._changed()
-
-    def action_primary(self) -> None:
-        self.model.cycle_primary()
-        self._changed()
-
-    def action_window(self) -> None:
-        self.model.cycle_window()
+    def action_model(self, op: str) -> None:
+        """Sort and filter keys: one RunView operation each (see BINDINGS)."""
+        getattr(self.model, op)()
         self._changed()
 
     def action_search(self) -> None:
