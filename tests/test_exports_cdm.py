@@ -112,7 +112,9 @@ def test_cdm_conforms_and_reads_back_the_same_numbers(exported):
         assert float(values["MISS_DISTANCE"][0][0]) >= 0
         e = by_id[values["MESSAGE_ID"][0][0]]
         got = assess_cdm(read_cdm(path), e["hbr_m"])
-        assert got["pc"] == pytest.approx(e["pc"], rel=1e-6)
+        # a CDM carries states and covariances at TCA, so reading it back recomputes the 2-D
+        # Pc; for slow encounters screener's own Pc is the along-path Monte Carlo (pc_2d kept)
+        assert got["pc"] == pytest.approx(e.get("pc_2d", e["pc"]), rel=1e-6)
         assert got["miss_km"] == pytest.approx(e["miss_km"], abs=1e-6)
         assert got["relative_speed_km_s"] == pytest.approx(e["relative_speed_km_s"], abs=1e-6)
         assert math.isclose(float(values["COLLISION_PROBABILITY"][0][0]), e["pc"], rel_tol=1e-3)

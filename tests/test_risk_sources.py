@@ -193,3 +193,32 @@ def test_screen_json_and_summary_label_assumed_covariance(tmp_path):
              if l[:3].strip().isdigit() and l.split()[1] in ("act", "watch", "routine")]
     shown = [float(l.split()[2]) for l in lines]
     assert shown == sorted(shown, reverse=True) and max(pcs) == pytest.approx(shown[0], rel=1e-2)
+
+
+@pytest.mark.parametrize("xm_m,sx_m,sy_m,hbr_m", [(30.0, 50.0, 50.0, 10.0), (200.0, 80.0, 300.0, 20.0),
+                                                  (0.0, 40.0, 120.0, 5.0)])
+def test_path_monte_carlo_on_a_straight_path_equals_the_2d_reference(xm_m, sx_m, sy_m, hbr_m):
+    """On a straight relative path the along-path Monte Carlo and the 2-D Pc (Foster & Estes
+    1992 quadrature, checked against Serra et al. 2016 in test_pc_reference.py) are the same
+    quantity: the quadrature must fall inside the Monte Carlo's 99 % interval."""
+    from screener.risk.pc import pc_quadrature
+    from screener.risk.pc_path import pc_path_monte_carlo
+
+    t = np.linspace(-600.0, 600.0, 41)
+    w = np.array([0.0, 0.0, 0.01])                        # 10 m/s along z: the plane is x-y
+    path = np.array([xm_m / 1e3, 0.0, 0.0]) + t[:, None] * w
+    cov = np.diag([(sx_m / 1e3) ** 2, (sy_m / 1e3) ** 2, 0.3 ** 2])
+    mc = pc_path_monte_carlo(path, cov, hbr_m / 1e3, samples=400_000)
+    want = pc_quadrature(xm_m, 0.0, sx_m, sy_m, hbr_m)
+    assert mc.lo99 <= want <= mc.hi99, (mc, want)
+
+
+def test_slow_encounters_get_the_path_monte_carlo(demo_encounters):
+    _, encs = demo_encounters
+    slow = [e for e in encs if e.relative_speed_km_s < 0.1]
+    assert slow, "the demo's co-orbital pair passes at about 4 m/s"
+    for e in slow:
+        assert e.risk["short_encounter_ok"] is False
+        assert e.risk["pc_method"].startswith("Monte Carlo along the relative path")
+        assert e.risk["pc_mc_lo99"] <= e.risk["pc"] <= e.risk["pc_mc_hi99"]
+        assert "pc_2d" in e.risk

@@ -35,7 +35,7 @@ def cmd_risk(args) -> int:
     print(f"Pc {out['pc']:.3e} ({out['pc_method']})   max Pc {out['pc_max']:.3e}   "
           f"HBR {hbr:g} m")
     if out["dilution_region"]:
-        print("note: in the dilution region: this Pc is low because the covariance is large, "
-              "not because the geometry is safe")
+        print("note: in the dilution region: Pc would rise if the covariance shrank; a low Pc here "
+              "does not mean the geometry is safe")
     print(CAUTION)
     return 0

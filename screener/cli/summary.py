@@ -55,7 +55,7 @@ def render(result, limit: int = 25, thresholds=None, diff=None) -> str:
         if len(encs) > limit:
             lines.append(f"    ... {len(encs) - limit} more (use --json for all)")
         lines.append("cov flags: A = Pc from assumed covariance (a regime model, not measured), "
-                     "D = dilution region (Pc low because the uncertainty is large; not reassuring), "
+                     "D = dilution region (Pc would rise if the uncertainty shrank: a low Pc is not reassuring), "
                      "S = slow or long encounter (the 2-D short-encounter Pc is doubtful)")
         cum = cumulative_by_primary(encs)
         if cum and len(cum) < 50:

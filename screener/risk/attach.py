@@ -78,6 +78,8 @@ def attach_risk(encounters: Sequence[Encounter], sources: CovarianceSources,
         if not short_ok:
             out["pc_note"] = ("2-D short-encounter Pc doubtful: slow pass or long time in the "
                               "combined uncertainty region")
+            if len(e.relative_path_km) >= 2:
+                _path_pc(e, est, out, hbr_m, thresholds)
         e.risk = out
 
 
@@ -87,3 +89,23 @@ def cumulative_by_primary(encounters: Sequence[Encounter]) -> dict[str, float]:
     for e in encounters:
         by.setdefault(e.primary, []).append(e.pc)
     return {k: cumulative(v) for k, v in sorted(by.items())}
+
+
+def _path_pc(e: Encounter, est, out: dict, hbr_m: float, thresholds: Thresholds) -> None:
+    """Slow/long encounter: Pc by Monte Carlo along the relative path replaces the 2-D Pc
+    (which is kept as pc_2d)."""
+    from .encounter_plane import ric_to_inertial_cov
+    from .pc_path import pc_path_monte_carlo
+
+    c = (ric_to_inertial_cov(est[0].cov_rtn_km2, e.primary_r_km, e.primary_v_km_s)
+         + ric_to_inertial_cov(est[1].cov_rtn_km2, e.secondary_r_km, e.secondary_v_km_s))
+    mc = pc_path_monte_carlo(np.array(e.relative_path_km), c, hbr_m / 1000.0)
+    out["pc_2d"], out["pc_2d_method"] = out["pc"], out["pc_method"]
+    out["pc"] = mc.pc
+    out["log10_pc"] = float(np.log10(mc.pc)) if mc.pc > 0 else None
+    out["pc_mc_lo99"], out["pc_mc_hi99"] = mc.lo99, mc.hi99
+    span = f"+-{e.profile_half_s:.0f} s"
+    out["pc_method"] = (f"Monte Carlo along the relative path ({span}, {mc.samples:,} samples, "
+                        f"99 % interval {mc.lo99:.1e} to {mc.hi99:.1e}; errors held fixed over the path)")
+    level, reason = thresholds.level(out["pc"], out["pc_max"], out["dilution_region"])
+    out["attention"], out["attention_reason"] = level, reason

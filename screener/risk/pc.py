@@ -65,7 +65,7 @@ def chan_is_reliable(xm: float, ym: float, sx: float, sy: float, R: float) -> tu
     (The thresholds are our engineering choice, checked against quadrature in the tests.)"""
     smin, smax = min(sx, sy), max(sx, sy)
     if R > 0.2 * smin:
-        return False, f"hard-body radius {R:g} m exceeds 0.2 x the smaller sigma {smin:g} m"
+        return False, f"hard-body radius {R:g} m exceeds 0.2 x the smaller sigma {smin:.1f} m"
     if smax / smin > 20:
         return False, f"covariance aspect ratio {smax / smin:.1f} above 20"
     return True, "ok"
@@ -119,6 +119,11 @@ def pc_monte_carlo(xm, ym, sx, sy, R, samples=2_000_000, seed=1, chunk=1_000_000
         y = rng.normal(0.0, sy, n)
         hits += int(np.count_nonzero((x - xm) ** 2 + (y - ym) ** 2 <= R * R))
         done += n
+    return wilson(hits, samples)
+
+
+def wilson(hits: int, samples: int) -> MonteCarloPc:
+    """Hit fraction with its Wilson score 99 % interval."""
     p = hits / samples
     z = stats.norm.ppf(0.995)
     denom = 1 + z * z / samples

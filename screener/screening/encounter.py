@@ -42,6 +42,7 @@ class Encounter:
     secondary_v_km_s: tuple = ()
     profile_half_s: float = 0.0     # range profile spans TCA +- this
     range_profile_km: tuple = ()    # PROFILE_SAMPLES ranges, evenly spaced over the span
+    relative_path_km: tuple = ()    # secondary - primary (TEME) at the profile's instants
     risk: dict = dataclasses.field(default_factory=dict)   # filled by the risk layer
 
     @property
@@ -127,7 +128,10 @@ def add_range_profile(pop, e: Encounter, i: int, j: int) -> None:
     half = float(np.clip(PROFILE_REACH_KM / max(e.relative_speed_km_s, 1e-6), 30.0, 1800.0))
     t = e.tca_s + np.linspace(-half, half, PROFILE_SAMPLES)
     r, _, code = pop.states(e.window_jd, e.window_fr, t, rows=[i, j])
-    rng = np.linalg.norm(r[1] - r[0], axis=1)
-    rng[(code[0] != 0) | (code[1] != 0)] = np.nan
+    rel = r[1] - r[0]
+    rng = np.linalg.norm(rel, axis=1)
+    bad = (code[0] != 0) | (code[1] != 0)
+    rng[bad] = np.nan
     e.profile_half_s = half
     e.range_profile_km = tuple(float(x) for x in rng)
+    e.relative_path_km = tuple(tuple(map(float, x)) for x in rel[~bad])

@@ -78,6 +78,9 @@ def facts_text(d: dict, now_unix_s: float, tca_unix_s: float) -> str:
         f"Pc 0 by {d.get('pc_method', '?')}",
         f"  2-D quadrature       {fmt_pc(quad)}",
     ]
+    if "pc_2d" in d:
+        lines.insert(-1, f"  along-path MC 99 %   {fmt_pc(d['pc_mc_lo99'])} to {fmt_pc(d['pc_mc_hi99'])}"
+                         f"  (2-D short-encounter value {fmt_pc(d['pc_2d'])})")
     if chan_line:
         lines.append(chan_line)
     lines += [
@@ -88,8 +91,8 @@ def facts_text(d: dict, now_unix_s: float, tca_unix_s: float) -> str:
     if d.get("assumed_covariance"):
         lines.append("  ASSUMED COVARIANCE: a regime model, not measured; treat this Pc as indicative")
     if d.get("dilution_region"):
-        lines.append("  DILUTION REGION: Pc is low because the uncertainty is large, not because the "
-                     "geometry is safe")
+        lines.append("  DILUTION REGION: Pc would rise if the uncertainty shrank; a low Pc here "
+                     "does not mean the geometry is safe")
     if d.get("pc_note"):
         lines.append(f"  {d['pc_note']}")
     if d.get("volume_entry"):
