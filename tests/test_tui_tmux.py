@@ -56,3 +56,28 @@ def test_tui_in_tmux(demo_store_path):
             raise AssertionError(f"q did not quit the TUI; screen:\n{_capture(session)}")
     finally:
         subprocess.run(["tmux", "kill-session", "-t", session], capture_output=True)
+
+
+def test_tui_leaves_when_the_terminal_goes_away(demo_store_path, tmp_path):
+    """An SSH drop or a killed tmux must not leave the TUI running (textual's input reader would
+    spin on end-of-file): the app watches for POLLHUP and exits.  The TUI is started under a
+    parent shell, as `make demo` starts it, so the hang-up reaches it only through the pty."""
+    import shutil as _sh
+
+    store = tmp_path / "hup.sqlite"
+    _sh.copy(demo_store_path, store)
+    session = f"screener-hup-{os.getpid()}"
+    cmd = f"sh -c '{sys.executable} -m screener.cli.main tui --store {store}; true'"
+    subprocess.run(["tmux", "new-session", "-d", "-s", session, "-x", "80", "-y", "24", cmd], check=True)
+    try:
+        _wait(session, "run 2")
+    finally:
+        subprocess.run(["tmux", "kill-session", "-t", session], capture_output=True)
+    t_end = time.monotonic() + 15
+    while time.monotonic() < t_end:
+        alive = subprocess.run(["pgrep", "-f", f"tui --store {store}"], capture_output=True).returncode == 0
+        if not alive:
+            return
+        time.sleep(0.5)
+    subprocess.run(["pkill", "-9", "-f", f"tui --store {store}"])
+    raise AssertionError("the TUI kept running after its terminal went away")

@@ -67,6 +67,8 @@ def cmd_run(args) -> int:
         if args.catalog or args.primaries or args.start:
             raise ScreenerError("give either --config or the one-off options (--catalog, --start, ...), not both")
         cfg = load_config(args.config)
+        if args.dask:
+            cfg.dask_scheduler = args.dask
     else:
         if not args.catalog or not args.start:
             raise ScreenerError("run needs --config PATH, or --catalog and --start for a one-off run")

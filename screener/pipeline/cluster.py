@@ -9,7 +9,7 @@ from __future__ import annotations
 
 from ..errors import ConfigError
 
-CONNECT_TIMEOUT_S = 20
+CONNECT_TIMEOUT_S = 10
 
 
 def connect(address: str):

@@ -3,6 +3,8 @@
 from __future__ import annotations
 
 import os
+import select
+import sys
 import time
 from typing import Callable
 
@@ -35,6 +37,17 @@ class ScreenerApp(App):
     def on_mount(self) -> None:
         self.push_screen(TriageScreen())
         self.check_size()
+        if not self.is_headless and sys.__stdin__ is not None and sys.__stdin__.isatty():
+            self._stdin_poll = select.poll()
+            self._stdin_poll.register(sys.__stdin__.fileno(), select.POLLIN)
+            self.set_interval(1.0, self._check_hangup)
+
+    def _check_hangup(self) -> None:
+        """Leave when the terminal is gone (SSH dropped, tmux killed): the input reader would
+        otherwise spin on end-of-file.  POLLHUP is looked at without reading any input."""
+        for _fd, events in self._stdin_poll.poll(0):
+            if events & (select.POLLHUP | select.POLLERR | select.POLLNVAL):
+                self.exit(return_code=129)
 
     def on_resize(self, event) -> None:
         self.check_size()
