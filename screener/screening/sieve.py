@@ -33,6 +33,27 @@ def fleet_candidates(rp: np.ndarray, vp: np.ndarray, rs: np.ndarray, vs: np.ndar
     return np.nonzero(hit)
 
 
+# Over +-dt/2 around a substep the relative path departs from its tangent line by at most
+# A (dt/2)^2 / 2 with A the relative acceleration; LINEAR_SAFETY covers the interpolant's own
+# curvature on top of the physical bound.
+LINEAR_SAFETY = 3.0
+
+
+def _linear_pass(pos: np.ndarray, vel: np.ndarray, pairs: np.ndarray, dt_s: float,
+                 reach_km: float) -> np.ndarray:
+    """Mask of index pairs whose straight-line relative motion over +-dt/2 comes within
+    reach_km plus the curvature margin (conservative; removes pairs the radius let in only
+    because they move fast)."""
+    rho = pos[pairs[:, 1]] - pos[pairs[:, 0]]
+    w = vel[pairs[:, 1]] - vel[pairs[:, 0]]
+    half = dt_s / 2.0
+    tau = np.clip(-np.einsum("ni,ni->n", rho, w) / np.maximum(np.einsum("ni,ni->n", w, w), 1e-30),
+                  -half, half)
+    d = np.linalg.norm(rho + w * tau[:, None], axis=1)
+    margin = LINEAR_SAFETY * ACCEL_BOUND_KM_S2 * half * half / 2.0
+    return d <= reach_km + margin
+
+
 def kd_candidates(r: np.ndarray, v: np.ndarray, usable: np.ndarray, h_s: float, reach_km: float,
                   v_max_km_s: float, substeps: int) -> np.ndarray:
     """All-vs-all: unique (i, j, interval) with i < j.  Positions are interpolated (cubic Hermite)
@@ -52,9 +73,11 @@ def kd_candidates(r: np.ndarray, v: np.ndarray, usable: np.ndarray, h_s: float, 
         keys = []
         for q in range(substeps):
             u = (q + 0.5) / substeps
-            pos, _ = hermite_cubic(u, r0, v0, r1, v1, h_s)
+            pos, vel = hermite_cubic(u, r0, v0, r1, v1, h_s)
             pairs = cKDTree(pos, balanced_tree=False, compact_nodes=False).query_pairs(
                 radius, output_type="ndarray")
+            if len(pairs):
+                pairs = pairs[_linear_pass(pos, vel, pairs, dt, reach_km)]
             if len(pairs):
                 keys.append(pairs[:, 0].astype(np.int64) * n + pairs[:, 1])
         if keys:
