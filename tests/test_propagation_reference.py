@@ -116,3 +116,20 @@ def test_sanity_gates_mark_decayed_states():
     r, v, code = Sgp4Batch([rec]).states(rec.epoch_jd, rec.epoch_fr, t_s)
     assert code[0, 0] == 0
     assert (code[0] != 0).any()  # decays (SGP4 error or the 100 km gate) within ten days
+
+
+def test_osculating_orbit_of_a_geostationary_state():
+    """A circular state at a = 42,164.17 km (IERS mu) has the sidereal-day period, 86,164.09 s
+    (handbook value, common practice), and zero eccentricity and inclination."""
+    import math
+
+    from screener.constants import MU_EARTH_KM3_S2
+    from screener.propagation.orbit import osculating
+
+    a = 42164.17
+    v = math.sqrt(MU_EARTH_KM3_S2 / a)
+    o = osculating([a, 0.0, 0.0], [0.0, v, 0.0])
+    assert o.size.period_s == pytest.approx(86164.09, abs=1.0)
+    assert o.eccentricity < 1e-9 and o.inclination_deg < 1e-9
+    assert o.size.regime == "GEO"
+    assert osculating([7000.0, 0, 0], [0, 12.0, 0]).size is None      # above escape speed

@@ -16,7 +16,7 @@ from scipy import stats
 from screener import synth
 from screener.elements import read_oem
 from screener.elements.oem import OemCovariance
-from screener.risk.attach import attach_risk, cumulative_by_primary
+from screener.risk.attach import cumulative_by_primary
 from screener.risk.attention import Thresholds
 from screener.risk.covariance import (ASSUMED, CONFIGURED, HISTORY, OEM, CovarianceSources,
                                       SigmaGrowth, assumed, fit_history, from_oem)

@@ -47,3 +47,33 @@ def orbit_from_mean_motion(mean_motion_rad_s: float, eccentricity: float,
     ra = a * (1.0 + eccentricity)
     return OrbitSize(a, TWO_PI / mean_motion_rad_s, rp, ra, rp - earth_radius_km,
                      ra - earth_radius_km)
+
+
+@dataclasses.dataclass(frozen=True)
+class Osculating:
+    """Two-body orbit of one state; size is None for an unbound (hyperbolic) state."""
+    size: OrbitSize | None
+    eccentricity: float
+    inclination_deg: float
+
+
+def osculating(r_km, v_km_s, mu_km3_s2: float | None = None,
+               earth_radius_km: float | None = None) -> Osculating:
+    """From a state: a from the vis-viva energy, e from the eccentricity vector, the period from
+    Kepler's third law in Newton's form (IERS mu and WGS-84 radius by default)."""
+    import numpy as np
+
+    from ..constants import MU_EARTH_KM3_S2, RE_WGS84_KM
+
+    mu = MU_EARTH_KM3_S2 if mu_km3_s2 is None else mu_km3_s2
+    re = RE_WGS84_KM if earth_radius_km is None else earth_radius_km
+    r, v = np.asarray(r_km, float), np.asarray(v_km_s, float)
+    rn, vn = float(np.linalg.norm(r)), float(np.linalg.norm(v))
+    h = np.cross(r, v)
+    e = float(np.linalg.norm(np.cross(v, h) / mu - r / rn))
+    inc = math.degrees(math.acos(max(-1.0, min(1.0, h[2] / np.linalg.norm(h)))))
+    a = 1.0 / (2.0 / rn - vn * vn / mu)
+    if a <= 0:
+        return Osculating(None, e, inc)
+    rp, ra = a * (1.0 - e), a * (1.0 + e)
+    return Osculating(OrbitSize(a, period_s(a, mu), rp, ra, rp - re, ra - re), e, inc)

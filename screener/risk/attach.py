@@ -26,19 +26,11 @@ ASSUMED_LABEL = "assumed covariance"
 
 
 def _regime(r_km, v_km_s) -> str:
-    """Regime from the osculating state (two-body), same classes as OrbitSize.regime."""
-    from ..constants import MU_EARTH_KM3_S2, RE_WGS84_KM as re
-    from ..propagation.orbit import OrbitSize
+    """Regime (OrbitSize.regime) of the osculating orbit at TCA; unbound states count as HEO."""
+    from ..propagation.orbit import osculating
 
-    r, v = np.asarray(r_km, float), np.asarray(v_km_s, float)
-    rn, vn = np.linalg.norm(r), np.linalg.norm(v)
-    a = 1.0 / (2.0 / rn - vn * vn / MU_EARTH_KM3_S2)
-    e_vec = ((vn * vn - MU_EARTH_KM3_S2 / rn) * r - (r @ v) * v) / MU_EARTH_KM3_S2
-    e = float(np.linalg.norm(e_vec))
-    if a <= 0:
-        return "HEO"
-    period = 2 * math.pi * math.sqrt(a ** 3 / MU_EARTH_KM3_S2)
-    return OrbitSize(a, period, a * (1 - e), a * (1 + e), a * (1 - e) - re, a * (1 + e) - re).regime
+    size = osculating(r_km, v_km_s).size
+    return size.regime if size is not None else "HEO"
 
 
 def attach_risk(encounters: Sequence[Encounter], sources: CovarianceSources,

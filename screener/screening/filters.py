@@ -11,7 +11,6 @@ from __future__ import annotations
 import numpy as np
 
 from ..elements.record import ElementSet
-from ..propagation.orbit import orbit_from_mean_motion
 
 SHORT_PERIOD_PAD_KM = 25.0      # covers SGP4 short-period radial terms (order 10 km in LEO)
 DEEP_SPACE_PAD_FRACTION = 0.01  # lunisolar changes of e over days for deep-space orbits

@@ -5,14 +5,13 @@ from __future__ import annotations
 
 import math
 
-import numpy as np
 from textual.app import ComposeResult
 from textual.binding import Binding
 from textual.containers import VerticalScroll
 from textual.screen import Screen
 from textual.widgets import Footer, Static
 
-from ..constants import MU_EARTH_KM3_S2, RE_WGS84_KM
+from ..propagation.orbit import osculating
 from ..risk.pc import chan_is_reliable, pc_chan, pc_quadrature
 from ..store import queries
 from .model import fmt_pc, fmt_until, summary_line
@@ -22,27 +21,13 @@ from .widgets import CautionBar
 PLOTS = ("range", "plane", "history")
 
 
-def osculating(state) -> dict:
-    """Two-body orbit from a TEME state at TCA: perigee/apogee altitude, inclination, and the
-    period from Kepler's third law, T = 2 pi sqrt(a^3 / mu)."""
-    r, v = np.asarray(state[:3], float), np.asarray(state[3:], float)
-    rn, vn = np.linalg.norm(r), np.linalg.norm(v)
-    a = 1.0 / (2.0 / rn - vn * vn / MU_EARTH_KM3_S2)
-    h = np.cross(r, v)
-    e = np.linalg.norm(np.cross(v, h) / MU_EARTH_KM3_S2 - r / rn)
-    inc = math.degrees(math.acos(h[2] / np.linalg.norm(h)))
-    if a <= 0:
-        return {"inc_deg": inc, "a_km": a, "e": e}
-    return {"a_km": a, "e": e, "inc_deg": inc, "perigee_alt_km": a * (1 - e) - RE_WGS84_KM,
-            "apogee_alt_km": a * (1 + e) - RE_WGS84_KM,
-            "period_min": 2 * math.pi * math.sqrt(a ** 3 / MU_EARTH_KM3_S2) / 60.0}
-
-
-def _orbit_line(o: dict) -> str:
-    if "period_min" not in o:
-        return f"hyperbolic, i {o['inc_deg']:.2f} deg"
-    return (f"perigee {o['perigee_alt_km']:.0f} km, apogee {o['apogee_alt_km']:.0f} km, "
-            f"i {o['inc_deg']:.2f} deg, period {o['period_min']:.2f} min")
+def _orbit_line(state) -> str:
+    """Osculating orbit at TCA; the period from Kepler's third law (propagation.orbit)."""
+    o = osculating(state[:3], state[3:])
+    if o.size is None:
+        return f"unbound (hyperbolic) state, i {o.inclination_deg:.2f} deg"
+    return (f"perigee {o.size.perigee_alt_km:.0f} km, apogee {o.size.apogee_alt_km:.0f} km, "
+            f"i {o.inclination_deg:.2f} deg, period {o.size.period_s / 60.0:.2f} min")
 
 
 def facts_text(d: dict, now_unix_s: float, tca_unix_s: float) -> str:
@@ -56,7 +41,6 @@ def facts_text(d: dict, now_unix_s: float, tca_unix_s: float) -> str:
         quad = pc_quadrature(xm, ym, sx, sy, hbr)
     else:
         quad = d.get("pc_quadrature", 0.0)
-    po, so = osculating(d["primary_state_teme"]), osculating(d["secondary_state_teme"])
     lines = [
         f"TCA {d['tca']}  ({fmt_until(tca_unix_s - now_unix_s)} from now)",
         f"miss {d['miss_km'] * 1e3:.1f} m:  radial {d['radial_km'] * 1e3:.1f} m, in-track "
@@ -65,12 +49,12 @@ def facts_text(d: dict, now_unix_s: float, tca_unix_s: float) -> str:
         "",
         f"primary   {d['primary']} {d['primary_name']}",
         f"  altitude at TCA {d['primary_alt_km']:.1f} km; element set {d['primary_elset_age_days']:.1f} d old",
-        f"  {_orbit_line(po)}",
+        f"  {_orbit_line(d['primary_state_teme'])}",
         f"  covariance: {d.get('primary_covariance', '?')}",
         f"  sigma R/I/C {', '.join(f'{x * 1e3:.0f}' for x in d.get('primary_sigma_rtn_km', []))} m",
         f"secondary {d['secondary']} {d['secondary_name']}",
         f"  altitude at TCA {d['secondary_alt_km']:.1f} km; element set {d['secondary_elset_age_days']:.1f} d old",
-        f"  {_orbit_line(so)}",
+        f"  {_orbit_line(d['secondary_state_teme'])}",
         f"  covariance: {d.get('secondary_covariance', '?')}",
         f"  sigma R/I/C {', '.join(f'{x * 1e3:.0f}' for x in d.get('secondary_sigma_rtn_km', []))} m",
         "",
