@@ -29,9 +29,14 @@ def unix_s(jd: float, fr: float) -> float:
     return ((jd - 2440587.5) + fr) * 86400.0
 
 
-def _elset_rows(run_id, req):
+def _elset_rows(run_id, req, encounters):
+    """Element sets of every primary and of each secondary that has an encounter (the whole
+    catalog is identified by its files' SHA-256 in the run row; storing 30,000 sets a night
+    would grow the store by gigabytes a year)."""
+    involved = {e.secondary for e in encounters} | {e.primary for e in encounters}
     rows = []
-    for role, recs in (("primary", req.primaries), ("secondary", req.catalog)):
+    for role, recs in (("primary", req.primaries),
+                       ("catalog", [r for r in req.catalog if r.catalog_id in involved])):
         for r in recs:
             l1, l2 = r.to_tle()
             rows.append((run_id, r.catalog_id, r.name, role, "element set",
@@ -67,7 +72,7 @@ def commit_run(store: Store, *, name: str, config_snapshot: dict, inputs_files: 
              len(req.primaries) + len(req.primary_oems), len(req.catalog), len(result.encounters),
              log_path)).lastrowid
         _hold("after-run-row")
-        conn.executemany("INSERT OR REPLACE INTO elsets VALUES (?,?,?,?,?,?,?,?,?)", _elset_rows(run_id, req))
+        conn.executemany("INSERT OR REPLACE INTO elsets VALUES (?,?,?,?,?,?,?,?,?)", _elset_rows(run_id, req, result.encounters))
         encs = result.encounters
         tcas = [unix_s(*e.tca_jd) for e in encs]
         matches = match_events(conn, run_id, [(e.primary, e.secondary, t) for e, t in zip(encs, tcas)],
