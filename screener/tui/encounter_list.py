@@ -17,21 +17,25 @@ from textual.widgets import Static
 from ..store.queries import EncounterRow
 from .model import RunView, fmt_log10, fmt_pc, fmt_until
 
-# (title, width, right-aligned, cell text, shown from this terminal width)
+TREND_SHORT = {"converging": "conv", "growing": "grow", "stable": "stab", "new": "new"}
+
+# (title, width, right-aligned, cell text, shown from this width, shown below this width)
 COLUMNS = (
-    ("level", 7, False, lambda r, now: r.attention, 0),
-    ("Pc", 7, True, lambda r, now: fmt_pc(r.pc), 0),
-    ("log10", 5, True, lambda r, now: fmt_log10(r.pc), 100),
-    ("miss km", 7, True, lambda r, now: f"{r.miss_km:.3f}", 0),
-    ("TCA UTC", 14, False, lambda r, now: r.tca_utc[5:19].replace("T", " "), 0),
-    ("to TCA", 6, True, lambda r, now: fmt_until(r.tca_unix_s - now), 0),
-    ("km/s", 5, True, lambda r, now: f"{r.relative_speed_km_s:.2f}", 0),
-    ("primary", 9, False, lambda r, now: r.primary_id, 0),
-    ("secondary", 9, False, lambda r, now: r.secondary_id, 0),
-    ("trend", 10, False, lambda r, now: r.trend, 120),
-    ("change", 12, False, lambda r, now: r.change, 140),
-    ("flags", 5, False, lambda r, now: flags(r), 0),
-    ("secondary name", 16, False, lambda r, now: r.secondary_name, 160),
+    ("level", 7, False, lambda r, now: r.attention, 0, 10**6),
+    ("Pc", 7, True, lambda r, now: fmt_pc(r.pc), 0, 10**6),
+    ("log10", 5, True, lambda r, now: fmt_log10(r.pc), 100, 10**6),
+    ("miss km", 7, True, lambda r, now: f"{r.miss_km:.3f}", 0, 10**6),
+    ("TCA UTC", 11, False, lambda r, now: r.tca_utc[5:16].replace("T", " "), 0, 100),
+    ("TCA UTC", 14, False, lambda r, now: r.tca_utc[5:19].replace("T", " "), 100, 10**6),
+    ("to TCA", 6, True, lambda r, now: fmt_until(r.tca_unix_s - now), 0, 10**6),
+    ("km/s", 5, True, lambda r, now: f"{r.relative_speed_km_s:.2f}", 0, 10**6),
+    ("primary", 9, False, lambda r, now: r.primary_id, 0, 10**6),
+    ("secondary", 9, False, lambda r, now: r.secondary_id, 0, 10**6),
+    ("trnd", 4, False, lambda r, now: TREND_SHORT.get(r.trend, r.trend), 0, 120),
+    ("trend", 10, False, lambda r, now: r.trend, 120, 10**6),
+    ("change", 12, False, lambda r, now: r.change, 140, 10**6),
+    ("flg", 3, False, lambda r, now: flags(r), 0, 10**6),
+    ("secondary name", 16, False, lambda r, now: r.secondary_name, 160, 10**6),
 )
 
 
@@ -42,12 +46,12 @@ def flags(r: EncounterRow) -> str:
 
 
 def visible_columns(width: int):
-    return [c for c in COLUMNS if width >= c[4]]
+    return [c for c in COLUMNS if c[4] <= width < c[5]]
 
 
 def format_row(r: EncounterRow | None, now: float, width: int) -> str:
     cells = []
-    for title, w, right, fn, _ in visible_columns(width):
+    for title, w, right, fn, _lo, _hi in visible_columns(width):
         text = title if r is None else str(fn(r, now))
         text = text[:w]
         cells.append(text.rjust(w) if right else text.ljust(w))
