@@ -60,13 +60,13 @@ def build_request(cfg: Config, inputs: Inputs, jd0: float, fr0: float) -> Screen
                             workers=cfg.workers)
 
 
-def add_risk(cfg: Config, inputs: Inputs, result) -> None:
+def add_risk(cfg: Config, inputs: Inputs, result, progress: Progress | None = None) -> None:
     sources = CovarianceSources(oems=inputs.oems, configured=cfg.covariance.mapping(),
                                 history=inputs.history if cfg.covariance.use_history else None)
     primary_ids = {r.catalog_id for r in inputs.primaries} | {o.object_id for o in inputs.oems}
     attach_risk(result.encounters, sources,
                 radius_m=lambda oid: cfg.radius_m(oid, oid in primary_ids),
-                thresholds=cfg.thresholds)
+                thresholds=cfg.thresholds, progress=progress)
 
 
 def open_log(folder: str, stamp: str) -> tuple[logging.Logger, str]:
@@ -128,9 +128,9 @@ def execute(cfg: Config, store=None, progress: Progress | None = None, cancel=No
             if client is not None:
                 client.close()
         note(f"screening: {len(result.encounters)} encounters, {result.stats.get('wall_s', 0):.1f} s")
-        report("risk", 0, 1)
-        add_risk(cfg, inputs, result)
-        report("risk", 1, 1)
+        n_enc = len(result.encounters)
+        add_risk(cfg, inputs, result, progress=report)
+        report("risk", n_enc, n_enc)
         out = RunOutcome(cfg, inputs, result, started_utc=started, log_path=log_path)
         if store is not None:
             from ..store.runs import commit_run

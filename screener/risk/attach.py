@@ -36,12 +36,17 @@ def _regime(r_km, v_km_s) -> str:
 def attach_risk(encounters: Sequence[Encounter], sources: CovarianceSources,
                 radius_m: Callable[[str], float] | None = None,
                 thresholds: Thresholds = Thresholds(),
-                aliases: Mapping[str, Sequence[str]] | None = None) -> None:
+                aliases: Mapping[str, Sequence[str]] | None = None,
+                progress: Callable[[str, int, int], None] | None = None) -> None:
     """Fill e.risk for every encounter.  radius_m(object_id) gives each object's
-    circumscribing-sphere radius (default DEFAULT_OBJECT_RADIUS_M)."""
+    circumscribing-sphere radius (default DEFAULT_OBJECT_RADIUS_M); progress("risk", done,
+    total) is called every few encounters."""
     radius_m = radius_m or (lambda _id: DEFAULT_OBJECT_RADIUS_M)
     aliases = aliases or {}
-    for e in encounters:
+    total = len(encounters)
+    for n, e in enumerate(encounters):
+        if progress and n % 10 == 0:
+            progress("risk", n, total)
         tjd, tfr = e.tca_jd
         est = []
         for oid, r, v, age in ((e.primary, e.primary_r_km, e.primary_v_km_s, e.primary_age_days),
