@@ -140,7 +140,10 @@ def main(argv=None) -> int:
     args = ap.parse_args(argv)
     try:
         signal.signal(signal.SIGTERM, _on_sigterm)
-    except ValueError:          # not the main thread (embedded use): keep the default
+        # Ctrl-C always interrupts cleanly, even when started from a shell that made SIGINT
+        # ignored (background jobs): the open store transaction then rolls back
+        signal.signal(signal.SIGINT, signal.default_int_handler)
+    except ValueError:          # not the main thread (embedded use): keep the defaults
         pass
     try:
         return args.func(args)
