@@ -95,7 +95,7 @@ def cmd_run(args) -> int:
             print(render(out.result, thresholds=cfg.thresholds, diff=out.diff))
             print(f"\nStored as run {out.run_id} in {store.path}; log {out.log_path}")
             if exports:
-                print(f"Exports: {len(exports)} files in {os.path.dirname(exports[0]) if len(exports) == 1 else folder}")
+                print(f"Exports: {len(exports)} files in {folder}")
     finally:
         store.close()
     n_act = sum(1 for e in out.result.encounters if e.risk.get("attention") == ACT)

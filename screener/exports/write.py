@@ -34,8 +34,7 @@ def export_run(store, run_id: int | None, folder: str, json_out=True, csv_out=Tr
     except OSError as exc:
         raise ScreenerError(f"cannot create {folder}: {exc.strerror}") from None
     encs = run_encounters(store, info.id)
-    head = {k: v for k, v in dataclasses.asdict(info).items() if k not in ("config", "stats")}
-    head = {"run": head}
+    head = {"run": {k: v for k, v in dataclasses.asdict(info).items() if k not in ("config", "stats")}}
     written = []
     maneuverable = {k: v.get("maneuverable") for k, v in info.config.get("members", {}).items()}
     try:
