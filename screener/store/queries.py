@@ -103,8 +103,3 @@ def event_history(store: Store, event_id: int) -> list[dict]:
         " e.attention, e.covariance_source FROM encounters e JOIN runs r ON r.id = e.run_id"
         " WHERE e.event_id=? ORDER BY e.run_id", (event_id,))]
 
-
-def elset(store: Store, run_id: int, object_id: str) -> dict | None:
-    r = store.conn.execute("SELECT * FROM elsets WHERE run_id=? AND object_id=? ORDER BY role LIMIT 1",
-                           (run_id, object_id)).fetchone()
-    return dict(r) if r else None
