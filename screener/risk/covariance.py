@@ -169,7 +169,6 @@ class CovarianceSources:
         self._oems = {}
         for o in oems:
             self._oems[o.object_id] = o
-            self._oems[o.segments[0].object_id] = o
         self._configured = dict(configured or {})
         self._history = dict(history or {})
         self._fits: dict[str, HistoryFit | None] = {}

@@ -39,7 +39,6 @@ from .volume import Volume
 # radius grows with the step, and candidates with the radius squared.
 FLEET_STEP_S = 240.0
 ALL_VS_ALL_STEP_S = 120.0
-COARSE_STEP_S = ALL_VS_ALL_STEP_S   # kept for callers that name one step
 FLOAT32_PAD_KM = 0.01        # single-precision rounding in the fleet sieve, generous
 INTERP_MARGIN_KM = 2.0        # added to the volume's bounding radius in both coarse stages
 KD_SUBSTEPS = 2               # spatial-index samples per grid interval (all-vs-all)

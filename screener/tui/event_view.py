@@ -12,7 +12,7 @@ from textual.screen import Screen
 from textual.widgets import Footer, Static
 
 from ..propagation.orbit import osculating
-from ..risk.pc import chan_is_reliable, pc_chan, pc_quadrature
+from ..risk.pc import chan_is_reliable, pc_chan
 from ..store import queries
 from .model import fmt_pc, fmt_until, summary_line
 from .plots import history_lines, plane_plot, range_plot
@@ -38,9 +38,7 @@ def facts_text(d: dict, now_unix_s: float, tca_unix_s: float) -> str:
         ok, why = chan_is_reliable(xm, ym, sx, sy, hbr)
         chan = pc_chan(xm, ym, sx, sy, hbr)
         chan_line = f"  Chan series          {fmt_pc(chan)}" + ("" if ok else f"  (not used: {why})")
-        quad = pc_quadrature(xm, ym, sx, sy, hbr)
-    else:
-        quad = d.get("pc_quadrature", 0.0)
+    quad = d.get("pc_quadrature", 0.0)          # computed once, by the risk layer
     lines = [
         f"TCA {d['tca']}  ({fmt_until(tca_unix_s - now_unix_s)} from now)",
         f"miss {d['miss_km'] * 1e3:.1f} m:  radial {d['radial_km'] * 1e3:.1f} m, in-track "

@@ -50,7 +50,6 @@ class TriageScreen(Screen):
         self.run_info = None
         self.model: RunView | None = None
         self._cancel: threading.Event | None = None
-        self.last_run_status = ""
 
     def compose(self) -> ComposeResult:
         yield Static("", id="run-line")
@@ -239,20 +238,18 @@ class TriageScreen(Screen):
             finally:
                 store.close()
         except Cancelled:
-            pool.shutdown(wait=False, cancel_futures=True)
             self.app.call_from_thread(self._finished, None, "screening cancelled; nothing stored")
         except ScreenerError as exc:
-            pool.shutdown(wait=False, cancel_futures=True)
             self.app.call_from_thread(self._finished, None, f"screening failed: {exc}")
         else:
-            pool.shutdown(wait=False)
             self.app.call_from_thread(self._finished, out.run_id,
                                       f"run {out.run_id} stored: {len(out.result.encounters)} "
                                       f"encounters; {out.diff.counts()}")
+        finally:
+            pool.shutdown(wait=False, cancel_futures=True)
 
     def _finished(self, run_id: int | None, text: str) -> None:
         self._cancel = None
-        self.last_run_status = text
         self._status(text)
         self.notify(text, severity="information" if run_id else "warning")
         if run_id is not None:
