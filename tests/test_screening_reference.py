@@ -1,8 +1,12 @@
 """The screening engine against an independent brute-force reference.
 
-Reference (written here, sharing no code with the engine): plain sgp4 (sgp4.api.SatrecArray and
-Satrec.sgp4) samples every pair every 2 s; each sampled local minimum of range is refined with
-scipy.optimize.minimize_scalar (bounded) on squared range.  Acceptance, per the screening
+Reference (written here, sharing no code with the engine): the sgp4 library's own
+Satrec.twoline2rv (TLE-born objects, from the same TLE text the engine reads) and
+Satrec.sgp4init (OMM-born objects, unit conversions written out below) build the satellites;
+plain sgp4 (sgp4.api.SatrecArray and Satrec.sgp4) samples every pair every 2 s; each sampled
+local minimum of range is refined with scipy.optimize.minimize_scalar (bounded) on squared
+range.  Half of the catalog objects reach the engine as TLE text (through screener's TLE
+reader), the rest as OMM-born records.  Acceptance, per the screening
 issue: recall 100 %, TCA within 1 ms, miss within 1 m, nothing reported that the reference
 does not report.
 """
@@ -14,7 +18,9 @@ import itertools
 import numpy as np
 import pytest
 from scipy.optimize import minimize_scalar
-from sgp4.api import SatrecArray
+from sgp4.api import WGS72, Satrec, SatrecArray
+
+from screener.elements import ElementSet
 
 from screener.screening import ScreeningRequest, Volume, screen
 
@@ -27,8 +33,25 @@ STEP_S = 2.0
 SLOW_KM_S = 0.05
 
 
+def reference_satrec(rec):
+    """The sgp4 library's own constructors; nothing of screener's propagation layer."""
+    if rec.tle_lines is not None:
+        return Satrec.twoline2rv(rec.tle_lines[0], rec.tle_lines[1], WGS72)
+    rev_day_to_rad_min = 2.0 * np.pi / 1440.0
+    deg = np.pi / 180.0
+    sat = Satrec()
+    # sgp4init: epoch in days since 1949 December 31 00:00 UT (JD 2433281.5), angles in
+    # radians, mean motion in rad/min, ndot in rad/min^2, nddot in rad/min^3 (Vallado 2006)
+    sat.sgp4init(WGS72, "i", 0, (rec.epoch_jd - 2433281.5) + rec.epoch_fr,
+                 rec.bstar_per_earth_radius, rec.ndot_rev_day2 * rev_day_to_rad_min / 1440.0,
+                 rec.nddot_rev_day3 * rev_day_to_rad_min / 1440.0**2, rec.eccentricity,
+                 rec.arg_perigee_deg * deg, rec.inclination_deg * deg, rec.mean_anomaly_deg * deg,
+                 rec.mean_motion_rev_day * rev_day_to_rad_min, rec.raan_deg * deg)
+    return sat
+
+
 def brute_force(records, jd0, fr0, window_s, radius_km, pairs):
-    sats = [r.make_satrec() for r in records]
+    sats = [reference_satrec(r) for r in records]
     t = np.arange(0.0, window_s + STEP_S / 2, STEP_S)
     e, r, _ = SatrecArray(sats).sgp4(np.full(len(t), jd0), fr0 + t / 86400.0)
     r[e != 0] = np.nan
@@ -71,9 +94,23 @@ def _compare(engine, reference):
     return matched
 
 
+def _as_tle_born(rec):
+    """The same object as TLE text read by screener's TLE reader (the engine's input path)."""
+    l1, l2 = rec.to_tle()
+    return ElementSet.from_tle(l1, l2, name=rec.name)
+
+
 @pytest.fixture(scope="module")
 def scenario():
-    return hard_cases()
+    sc = hard_cases()
+    sc["secondaries"] = [_as_tle_born(r) if k % 2 == 0 else r
+                         for k, r in enumerate(sc["secondaries"])]
+    return sc
+
+
+def test_scenario_mixes_tle_born_and_omm_born_catalog_objects(scenario):
+    born = [r.tle_lines is not None for r in scenario["secondaries"]]
+    assert 10 < sum(born) < len(born) - 10
 
 
 def test_fleet_vs_catalog_matches_brute_force(scenario):
@@ -111,8 +148,8 @@ def test_reported_tca_is_a_range_minimum_on_plain_sgp4(scenario):
     by_id = {r.catalog_id: r for r in prim + sec}
     for e in screen(req).encounters:
         jd, fr = e.tca_jd
-        _, ra, va = by_id[e.primary].make_satrec().sgp4(jd, fr)
-        _, rb, vb = by_id[e.secondary].make_satrec().sgp4(jd, fr)
+        _, ra, va = reference_satrec(by_id[e.primary]).sgp4(jd, fr)
+        _, rb, vb = reference_satrec(by_id[e.secondary]).sgp4(jd, fr)
         rho, w = np.subtract(rb, ra), np.subtract(vb, va)
         assert abs(np.linalg.norm(rho) - e.miss_km) < ONE_METRE_KM
         # range rate rho.w/|rho| after 1 ms of TCA error would be |w|^2 * 1e-3 / |rho|
@@ -133,3 +170,52 @@ def test_filters_never_drop_an_encounter_the_reference_finds(scenario):
     for p, s, _, _ in ref:
         i, j = ids.index(p), ids.index(s)
         assert apogee_perigee_mask(b[[i]], b[[j]], 50.0)[0, 0], (p, s)
+
+
+def _hand_ric(rho, r, v):
+    """RIC components written out (Vallado's RSW): R = r/|r|, C = r x v/|r x v|, I = C x R."""
+    R = np.asarray(r) / np.linalg.norm(r)
+    C = np.cross(r, v)
+    C = C / np.linalg.norm(C)
+    I = np.cross(C, R)
+    return np.array([rho @ R, rho @ I, rho @ C])
+
+
+def test_encounter_ric_parts_equal_the_hand_frame_on_plain_sgp4_states(scenario):
+    prim, sec = scenario["primaries"], scenario["secondaries"]
+    req = ScreeningRequest(catalog=sec, primaries=prim, jd0=scenario["jd0"], fr0=scenario["fr0"],
+                           duration_s=WINDOW_S, volume=Volume.sphere(RADIUS_KM))
+    by_id = {r.catalog_id: r for r in prim + sec}
+    enc = screen(req).encounters
+    assert len(enc) >= 8
+    for e in enc:
+        jd, fr = e.tca_jd
+        _, ra, va = reference_satrec(by_id[e.primary]).sgp4(jd, fr)
+        _, rb, _ = reference_satrec(by_id[e.secondary]).sgp4(jd, fr)
+        want = _hand_ric(np.subtract(rb, ra), np.array(ra), np.array(va))
+        got = np.array([e.radial_km, e.in_track_km, e.cross_track_km])
+        assert np.max(np.abs(got - want)) < ONE_METRE_KM, (e.primary, e.secondary, got, want)
+
+
+def test_ric_ellipsoid_screening_keeps_exactly_the_reference_minima_inside_it(scenario):
+    """--ric-km 2,25,25: the reference's range minima within the bounding sphere (25 km), kept
+    where the hand-computed RIC offset at TCA lies inside the ellipsoid."""
+    half = (2.0, 25.0, 25.0)
+    prim, sec = scenario["primaries"], scenario["secondaries"]
+    req = ScreeningRequest(catalog=sec, primaries=prim, jd0=scenario["jd0"], fr0=scenario["fr0"],
+                           duration_s=WINDOW_S, volume=Volume.ellipsoid(*half))
+    res = screen(req)
+    recs = prim + sec
+    pairs = [(a, len(prim) + b) for a in range(len(prim)) for b in range(len(sec))]
+    ref = brute_force(recs, scenario["jd0"], scenario["fr0"], WINDOW_S, max(half), pairs)
+    by_id = {r.catalog_id: r for r in recs}
+    jd0, fr0 = scenario["jd0"], scenario["fr0"]
+    inside = []
+    for p, s, tca, miss in ref:
+        _, ra, va = reference_satrec(by_id[p]).sgp4(jd0, fr0 + tca / 86400.0)
+        _, rb, _ = reference_satrec(by_id[s]).sgp4(jd0, fr0 + tca / 86400.0)
+        q = _hand_ric(np.subtract(rb, ra), np.array(ra), np.array(va)) / np.array(half)
+        if q @ q <= 1.0:
+            inside.append((p, s, tca, miss))
+    assert len(inside) > 8 and len(inside) < len(ref)   # the ellipsoid does cut something
+    _compare(res.encounters, inside)

@@ -15,11 +15,23 @@ import numpy as np
 from .. import CAUTION, __version__
 from ..propagation.frames import gcrf_to_teme_matrices
 from ..risk.cdm import write_cdm
+from ..screening.ric import ric_basis
 from ..timeutil import datetime_to_jd, iso_z, parse_iso
 
 
 def _safe(text: str) -> str:
     return re.sub(r"[^A-Za-z0-9_.-]+", "_", text)
+
+
+def pc_method_keyword(pc_method: str) -> str | None:
+    """COLLISION_PROBABILITY_METHOD for the method that produced the stored Pc, or None when
+    the standard's list has no value for it (the Monte Carlo along the relative path): the
+    keyword is optional and is then left out, with a COMMENT naming the method."""
+    if pc_method.startswith("Chan series"):
+        return "CHAN-1997"
+    if pc_method.startswith("2-D quadrature"):
+        return "FOSTER-1992"
+    return None
 
 
 def cdm_for_encounter(e: dict, maneuverable: dict | None = None, originator: str = "SCREENER"):
@@ -34,8 +46,6 @@ def cdm_for_encounter(e: dict, maneuverable: dict | None = None, originator: str
               "MESSAGE_ID": _safe(f"{e['primary']}_{e['secondary']}_{e['tca']}")}
     s1, s2 = np.asarray(e["primary_state_teme"], float), np.asarray(e["secondary_state_teme"], float)
     rho, w = s2[:3] - s1[:3], s2[3:] - s1[3:]
-    from ..screening.ric import ric_basis
-
     B = ric_basis(s1[:3], s1[3:])
     rel = {"TCA": e["tca"][:-1] if e["tca"].endswith("Z") else e["tca"],
            "MISS_DISTANCE": f"{e['miss_km'] * 1e3:.3f}",
@@ -46,7 +56,9 @@ def cdm_for_encounter(e: dict, maneuverable: dict | None = None, originator: str
         rel[f"RELATIVE_VELOCITY_{ax}"] = f"{x:.3f}"
     if e.get("pc") is not None:
         rel["COLLISION_PROBABILITY"] = f"{e['pc']:.4e}"
-        rel["COLLISION_PROBABILITY_METHOD"] = "FOSTER-1992" if "quadrature" in e.get("pc_method", "") else "CHAN-1997"
+        keyword = pc_method_keyword(e.get("pc_method", ""))
+        if keyword is not None:
+            rel["COLLISION_PROBABILITY_METHOD"] = keyword
     objects = []
     for k, (who, s) in enumerate((("primary", s1), ("secondary", s2)), start=1):
         cov = np.zeros((6, 6))
