@@ -2,20 +2,11 @@
 
 The UI reads the store and calls the pipeline; nothing below it imports the UI."""
 
-import signal
-
 from .app import ScreenerApp, make_app
 
 
 def run_tui(store_path: str | None = None, config_path: str | None = None) -> int:
     app = make_app(store_path, config_path)
-
-    def leave(signum, frame):
-        # hang-up (SSH dropped, tmux killed) or SIGTERM: leave the UI cleanly, never linger
-        app.exit(return_code=128 + signum)
-
-    for sig in (signal.SIGHUP, signal.SIGTERM):
-        signal.signal(sig, leave)
     app.run()
     return app.return_code or 0
 

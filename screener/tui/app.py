@@ -2,9 +2,12 @@
 
 from __future__ import annotations
 
+import asyncio
 import os
 import select
+import signal
 import sys
+import threading
 import time
 from typing import Callable
 
@@ -14,6 +17,12 @@ from textual.binding import Binding
 from ..errors import ScreenerError
 from .too_small import MIN_COLS, MIN_ROWS, TooSmallScreen
 from .triage import TriageScreen
+
+
+# Once the terminal is gone, textual's shutdown may block writing to it; after this many
+# seconds the process leaves without it (nothing of the store is at stake: a background
+# screening commits in one transaction, and an interrupted one leaves nothing behind).
+HANGUP_GRACE_S = 5.0
 
 
 class ScreenerApp(App):
@@ -41,13 +50,29 @@ class ScreenerApp(App):
             self._stdin_poll = select.poll()
             self._stdin_poll.register(sys.__stdin__.fileno(), select.POLLIN)
             self.set_interval(1.0, self._check_hangup)
+            # Hang-up (SSH dropped, tmux killed) and SIGTERM through the event loop, never as a
+            # plain Python signal handler: one of those can run in the middle of the output
+            # queue's put/get and leave textual's writer thread and the shutdown waiting on
+            # each other for ever (seen under load).
+            loop = asyncio.get_running_loop()
+            for sig in (signal.SIGHUP, signal.SIGTERM):
+                loop.add_signal_handler(sig, self._leave, 128 + sig)
+
+    def _leave(self, return_code: int) -> None:
+        """Exit now; if the shutdown has not finished HANGUP_GRACE_S later, leave anyway."""
+        def deadline():
+            time.sleep(HANGUP_GRACE_S)
+            os._exit(return_code)
+
+        threading.Thread(target=deadline, name="hangup-deadline", daemon=True).start()
+        self.exit(return_code=return_code)
 
     def _check_hangup(self) -> None:
         """Leave when the terminal is gone (SSH dropped, tmux killed): the input reader would
         otherwise spin on end-of-file.  POLLHUP is looked at without reading any input."""
         for _fd, events in self._stdin_poll.poll(0):
             if events & (select.POLLHUP | select.POLLERR | select.POLLNVAL):
-                self.exit(return_code=129)
+                self._leave(129)
 
     def on_resize(self, event) -> None:
         self.check_size()
