@@ -92,11 +92,12 @@ def _path_pc(e: Encounter, est, out: dict, hbr_m: float, thresholds: Thresholds)
     """Slow/long encounter: Pc by Monte Carlo along the relative path replaces the 2-D Pc
     (which is kept as pc_2d)."""
     from .encounter_plane import ric_to_inertial_cov
-    from .pc_path import pc_path_monte_carlo
+    from .pc_path import pc_path_resolved
 
     c = (ric_to_inertial_cov(est[0].cov_rtn_km2, e.primary_r_km, e.primary_v_km_s)
          + ric_to_inertial_cov(est[1].cov_rtn_km2, e.secondary_r_km, e.secondary_v_km_s))
-    mc = pc_path_monte_carlo(np.array(e.relative_path_km), c, hbr_m / 1000.0)
+    mc, resolved = pc_path_resolved(np.array(e.relative_path_km), c, hbr_m / 1000.0,
+                                    (thresholds.watch_pc, thresholds.act_pc))
     out["pc_2d"], out["pc_2d_method"] = out["pc"], out["pc_method"]
     out["pc"] = mc.pc
     out["log10_pc"] = float(np.log10(mc.pc)) if mc.pc > 0 else None
@@ -104,5 +105,13 @@ def _path_pc(e: Encounter, est, out: dict, hbr_m: float, thresholds: Thresholds)
     span = f"+-{e.profile_half_s:.0f} s"
     out["pc_method"] = (f"Monte Carlo along the relative path ({span}, {mc.samples:,} samples, "
                         f"99 % interval {mc.lo99:.1e} to {mc.hi99:.1e}; errors held fixed over the path)")
-    level, reason = thresholds.level(out["pc"], out["pc_max"], out["dilution_region"])
+    out["pc_mc_resolved"] = resolved
+    if resolved:
+        level, reason = thresholds.level(out["pc"], out["pc_max"], out["dilution_region"])
+    else:
+        # the interval still straddles a threshold at the sample cap: rank by what the data
+        # cannot exclude, the 99 % upper bound
+        level, reason = thresholds.level(mc.hi99, out["pc_max"], out["dilution_region"])
+        reason = (f"Monte Carlo Pc {mc.pc:.1e} cannot separate it from a threshold after "
+                  f"{mc.samples:,} samples; level set by its 99 % upper bound: {reason}")
     out["attention"], out["attention_reason"] = level, reason
