@@ -10,7 +10,7 @@ import sqlite3
 
 import pytest
 
-from screener.store import Store, queries
+from screener.store import SCHEMA_VERSION, Store, queries
 
 from .nightly import DEMO, screener, write_config
 
@@ -43,7 +43,7 @@ def test_both_runs_commit(two_runs):
     with Store(store) as s:
         assert [r.id for r in queries.runs(s)] == [2, 1]
         assert s.conn.execute("PRAGMA journal_mode").fetchone()[0] == "wal"
-        assert s.version() == 1
+        assert s.version() == SCHEMA_VERSION
 
 
 def test_events_are_matched_by_pair_and_tca_tolerance(two_runs):
@@ -158,3 +158,22 @@ def test_newer_schema_is_refused(tmp_path):
 
     with pytest.raises(ScreenerError, match="newer"):
         Store(str(path))
+
+
+def test_a_schema_1_store_migrates_in_place(tmp_path):
+    """A store written before element sets were kept as OMM keywords opens and migrates."""
+    import sqlite3
+
+    from screener.store.db import MIGRATIONS
+
+    path = tmp_path / "old.sqlite"
+    c = sqlite3.connect(path)
+    c.executescript(MIGRATIONS[0])
+    c.execute("PRAGMA user_version = 1")
+    c.execute("INSERT INTO elsets VALUES (1, '12345', 'X', 'catalog', 'element set', 't', 's', 'l1', 'l2')")
+    c.commit()
+    c.close()
+    with Store(str(path)) as s:
+        assert s.version() == SCHEMA_VERSION == 2
+        row = s.conn.execute("SELECT line1, omm_json FROM elsets").fetchone()
+        assert row["line1"] == "l1" and row["omm_json"] is None

@@ -53,6 +53,19 @@ def open_store(path, create=True):
         raise StoreError(str(exc)) from None
 
 
+def open_store_for_writing(path):
+    """The store, checked writable and unlocked before any screening starts."""
+    from ..errors import StoreError
+
+    store = open_store(path)
+    try:
+        store.check_writable()
+    except ScreenerError as exc:
+        store.close()
+        raise StoreError(str(exc)) from None
+    return store
+
+
 def cmd_run(args) -> int:
     from ..config import load_config
     from ..risk.attention import ACT
@@ -72,7 +85,7 @@ def cmd_run(args) -> int:
         if not args.catalog or not args.start:
             raise ScreenerError("run needs --config PATH, or --catalog and --start for a one-off run")
         cfg = config_from_args(args)
-    store = open_store(args.store or cfg.store)
+    store = open_store_for_writing(args.store or cfg.store)
     prog = make_progress(args.quiet)
     try:
         out = execute(cfg, store=store, progress=prog, warn=None if args.quiet else warn)

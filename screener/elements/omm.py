@@ -9,7 +9,7 @@ import re
 from typing import Iterator
 
 from ..errors import ParseError
-from ..timeutil import datetime_to_jd, parse_iso
+from ..timeutil import datetime_to_jd, iso_z, jd_to_datetime, parse_iso
 from .record import ElementSet, Source, check_elements
 
 # Keywords this reader needs for SGP4 (CCSDS 502.0-B-3, section 4, mean elements + TLE params).
@@ -75,6 +75,23 @@ def record_from_omm_fields(fields: dict, src: Source) -> ElementSet:
     if reason:
         raise ParseError(reason, src.path, src.line)
     return rec
+
+
+def omm_fields(rec: ElementSet) -> dict:
+    """The CCSDS OMM keywords (502.0-B-3) of a record, full precision: what the store keeps
+    of every element set (a TLE cannot hold catalog numbers above 339999)."""
+    return {
+        "OBJECT_NAME": rec.name, "OBJECT_ID": rec.intl_designator, "NORAD_CAT_ID": rec.catalog_id,
+        "MEAN_ELEMENT_THEORY": "SGP4", "EPOCH": iso_z(jd_to_datetime(rec.epoch_jd, rec.epoch_fr), 6),
+        "EPOCH_JD": [rec.epoch_jd, rec.epoch_fr],   # the exact split date, beside the text
+        "MEAN_MOTION": rec.mean_motion_rev_day, "ECCENTRICITY": rec.eccentricity,
+        "INCLINATION": rec.inclination_deg, "RA_OF_ASC_NODE": rec.raan_deg,
+        "ARG_OF_PERICENTER": rec.arg_perigee_deg, "MEAN_ANOMALY": rec.mean_anomaly_deg,
+        "BSTAR": rec.bstar_per_earth_radius, "MEAN_MOTION_DOT": rec.ndot_rev_day2,
+        "MEAN_MOTION_DDOT": rec.nddot_rev_day3, "CLASSIFICATION_TYPE": rec.classification,
+        "ELEMENT_SET_NO": rec.element_set_no, "REV_AT_EPOCH": rec.rev_at_epoch,
+        "EPHEMERIS_TYPE": rec.ephemeris_type,
+    }
 
 
 def _safe(fields: dict, src: Source) -> ElementSet | ParseError:

@@ -11,14 +11,16 @@ import dataclasses
 import datetime as dt
 import logging
 import os
+import sqlite3
 import time
 from typing import Callable
 
 from ..config import Config
-from ..errors import ScreenerError
+from ..errors import ScreenerError, StoreError
 from ..risk.attach import attach_risk
 from ..risk.covariance import CovarianceSources
 from ..screening import ScreeningRequest, Volume, screen
+from ..store.db import describe_sqlite_error
 from ..timeutil import datetime_to_jd, iso_z, parse_start
 from .inputs import Inputs, load_inputs
 
@@ -136,10 +138,14 @@ def execute(cfg: Config, store=None, progress: Progress | None = None, cancel=No
             from ..store.runs import commit_run
 
             report("storing", 0, 1)
-            out.run_id, out.diff = commit_run(
-                store, name=cfg.name, config_snapshot=cfg.snapshot(), inputs_files=inputs.files,
-                result=result, started_utc=started, thresholds=cfg.thresholds,
-                tca_tolerance_s=cfg.event_tca_tolerance_s, log_path=log_path)
+            try:
+                out.run_id, out.diff = commit_run(
+                    store, name=cfg.name, config_snapshot=cfg.snapshot(), inputs_files=inputs.files,
+                    result=result, started_utc=started, thresholds=cfg.thresholds,
+                    tca_tolerance_s=cfg.event_tca_tolerance_s, log_path=log_path)
+            except sqlite3.Error as exc:
+                raise StoreError("the run was computed but not stored: "
+                                 + describe_sqlite_error(store.path, exc, store.lock_wait_s)) from None
             out.store_path = store.path
             report("storing", 1, 1)
             note(f"committed run {out.run_id} to {store.path}: {out.diff.counts()}")

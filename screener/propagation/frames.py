@@ -70,6 +70,20 @@ def to_teme(frame: str, r_km: np.ndarray, v_km_s: np.ndarray, jd0: float, fr0: f
     raise ValueError(f"frame {frame} not supported")
 
 
+def rotation_to_teme(frame: str, jd0: float, fr0: float, t_s: np.ndarray) -> np.ndarray:
+    """(m, 3, 3) matrices taking position vectors (or position covariances, as R C R^T) from
+    `frame` to TEME at each time; identity for TEME."""
+    frame = frame.upper()
+    m = len(np.atleast_1d(t_s))
+    if frame == "TEME":
+        return np.broadcast_to(np.eye(3), (m, 3, 3))
+    if frame in INERTIAL_ALIASES:
+        return gcrf_to_teme_matrices(jd0, fr0, t_s)
+    if frame in EARTH_FIXED_ALIASES:
+        return np.transpose(teme_to_itrs_matrices(jd0, fr0, t_s), (0, 2, 1))
+    raise ValueError(f"frame {frame} not supported")
+
+
 def geodetic(r_teme_km: np.ndarray, jd0: float, fr0: float, t_s: np.ndarray):
     """WGS-84 geodetic latitude (deg), longitude (deg), height (km) for TEME positions (m,3)."""
     r_itrs = teme_to_itrs_km(r_teme_km, jd0, fr0, t_s)

@@ -19,6 +19,7 @@ import numpy as np
 
 from ..elements.oem import Oem
 from ..elements.record import ElementSet
+from ..propagation.frames import rotation_to_teme, to_teme
 from ..screening.ric import ric_basis
 
 OEM = "OEM covariance"
@@ -85,8 +86,11 @@ def assumed(regime: str, age_days: float) -> CovarianceEstimate:
 
 
 def from_oem(oem: Oem, tca_jd: float, tca_fr: float) -> CovarianceEstimate | None:
-    """The covariance block nearest TCA, rotated to RTN with the OEM's own state nearest that
-    block (same frame, so no frame mixing).  Not propagated to TCA: the gap is reported."""
+    """The covariance block nearest TCA, rotated to RTN.  Block and state are both taken to
+    TEME first (each from its own frame: COV_REF_FRAME may differ from the segment's
+    REF_FRAME, and an Earth-fixed velocity is not the inertial one that defines in-track);
+    the RTN basis is that of the OEM's state nearest the block.  Not propagated to TCA: the
+    gap is reported."""
     best = None
     for seg in oem.segments:
         for c in seg.covariances:
@@ -100,8 +104,11 @@ def from_oem(oem: Oem, tca_jd: float, tca_fr: float) -> CovarianceEstimate | Non
     if c.frame.upper() not in ("RTN", "RSW", "RIC"):
         t_s = ((c.epoch_jd - seg.start_jd) + c.epoch_fr) * 86400.0
         k = int(np.argmin(np.abs(seg.t_s - t_s)))
-        B = ric_basis(seg.r_km[k], seg.v_km_s[k])
-        p = B @ p @ B.T
+        at = np.array([seg.t_s[k]])
+        r, v = to_teme(seg.frame, seg.r_km[k:k + 1], seg.v_km_s[k:k + 1], seg.start_jd, 0.0, at)
+        R = rotation_to_teme(c.frame, seg.start_jd, 0.0, at)[0]
+        B = ric_basis(r[0], v[0])
+        p = B @ (R @ p @ R.T) @ B.T
     return CovarianceEstimate(0.5 * (p + p.T), OEM, f"block {gap_d * 24:.1f} h from TCA")
 
 

@@ -9,11 +9,14 @@ from __future__ import annotations
 
 import os
 import sqlite3
+import urllib.parse
 
 from ..errors import ScreenerError
 
-SCHEMA_VERSION = 1
+SCHEMA_VERSION = 2
 ENV_STORE = "SCREENER_STORE"
+ENV_LOCK_WAIT = "SCREENER_LOCK_WAIT_S"
+DEFAULT_LOCK_WAIT_S = 60.0      # how long a writer waits for another run's commit to finish
 
 # Each entry migrates from version k to k+1.  Never edit a released step; append a new one.
 MIGRATIONS: list[str] = [
@@ -88,7 +91,35 @@ MIGRATIONS: list[str] = [
     CREATE INDEX encounters_run_rank ON encounters(run_id, pc DESC, miss_km);
     CREATE INDEX encounters_event ON encounters(event_id, run_id);
     """,
+    # 1 -> 2: every element set also as its OMM keywords (full precision, any catalog number);
+    # line1/line2 stay NULL where no valid TLE can be written (ids above 339999)
+    """
+    ALTER TABLE elsets ADD COLUMN omm_json TEXT;
+    """,
 ]
+
+
+def lock_wait_s() -> float:
+    """$SCREENER_LOCK_WAIT_S (seconds, >= 0), else DEFAULT_LOCK_WAIT_S."""
+    text = os.environ.get(ENV_LOCK_WAIT, "")
+    try:
+        value = float(text) if text else DEFAULT_LOCK_WAIT_S
+    except ValueError:
+        value = -1.0
+    if not (0.0 <= value <= 86400.0):
+        raise ScreenerError(f"{ENV_LOCK_WAIT}={text!r}: give seconds from 0 to 86400")
+    return value
+
+
+def describe_sqlite_error(path: str, exc: Exception, waited_s: float) -> str:
+    """One line for an SQLite failure, naming the store and what to do."""
+    text = str(exc)
+    if "locked" in text or "busy" in text:
+        return (f"{path}: the store is locked by another writer (waited {waited_s:g} s, "
+                f"{ENV_LOCK_WAIT} sets the wait); try again when the other run has finished")
+    if "readonly" in text or "read-only" in text:
+        return f"{path}: the store cannot be written (read-only file or folder)"
+    return f"{path}: store error: {text}"
 
 
 def default_store_path() -> str:
@@ -112,18 +143,34 @@ class Store:
                 os.makedirs(os.path.dirname(self.path), exist_ok=True)
             except OSError as exc:
                 raise ScreenerError(f"{self.path}: cannot create the store folder: {exc.strerror}") from None
+        self.lock_wait_s = lock_wait_s()
         try:
-            uri = f"file:{self.path}?mode=ro" if readonly else f"file:{self.path}"
-            self.conn = sqlite3.connect(uri, uri=True, timeout=30.0, isolation_level=None,
-                                        check_same_thread=False)
+            # the path is percent-encoded: '?', '#' and '%' in a file name are not URI syntax
+            uri = "file:" + urllib.parse.quote(self.path) + ("?mode=ro" if readonly else "")
+            self.conn = sqlite3.connect(uri, uri=True, timeout=self.lock_wait_s,
+                                        isolation_level=None, check_same_thread=False)
             self.conn.row_factory = sqlite3.Row
             if not readonly:
                 self.conn.execute("PRAGMA journal_mode=WAL")
                 self.conn.execute("PRAGMA synchronous=NORMAL")
             self.conn.execute("PRAGMA foreign_keys=ON")
             self._migrate(readonly)
+        except sqlite3.OperationalError as exc:
+            raise ScreenerError(describe_sqlite_error(self.path, exc, self.lock_wait_s)) from None
         except sqlite3.DatabaseError as exc:
             raise ScreenerError(f"{self.path}: not a usable screener store ({exc})") from None
+
+    def check_writable(self) -> None:
+        """Before any long work: the file and its folder are writable and no other writer holds
+        the store longer than the lock wait.  Raises ScreenerError (the CLI exits 4)."""
+        for what, p in (("store file", self.path), ("store folder", self.folder)):
+            if not os.access(p, os.W_OK):
+                raise ScreenerError(f"{p}: the {what} is not writable")
+        try:
+            self.conn.execute("BEGIN IMMEDIATE")
+            self.conn.execute("ROLLBACK")
+        except sqlite3.Error as exc:
+            raise ScreenerError(describe_sqlite_error(self.path, exc, self.lock_wait_s)) from None
 
     @property
     def folder(self) -> str:

@@ -103,3 +103,21 @@ def event_history(store: Store, event_id: int) -> list[dict]:
         " e.attention, e.covariance_source FROM encounters e JOIN runs r ON r.id = e.run_id"
         " WHERE e.event_id=? ORDER BY e.run_id", (event_id,))]
 
+
+
+def element_sets(store: Store, run_id: int) -> dict[tuple[str, str], object]:
+    """{(object id, role): ElementSet} as stored with a run (OEM-backed primaries are not
+    element sets and are left out), rebuilt from the stored OMM keywords with the exact epoch."""
+    import dataclasses as _dc
+
+    from ..elements.record import ElementSet, Source
+
+    out = {}
+    for row in store.conn.execute("SELECT object_id, role, source, omm_json FROM elsets"
+                                  " WHERE run_id = ? AND omm_json IS NOT NULL", (run_id,)):
+        fields = json.loads(row["omm_json"])
+        jd, fr = fields.pop("EPOCH_JD")
+        rec = ElementSet.from_omm(fields, Source(f"store run {run_id}", 0))
+        out[(row["object_id"], row["role"])] = _dc.replace(rec, epoch_jd=jd, epoch_fr=fr,
+                                                           source=Source(row["source"], 0))
+    return out

@@ -11,6 +11,9 @@ import time
 from .. import __version__
 from ..risk.attention import LEVEL_RANK
 from ..timeutil import iso_z, jd_to_datetime
+from ..elements.omm import omm_fields
+from ..elements.record import SGP4_MAX_SATNUM
+from ..elements.tle import catalog_id_to_int
 from .db import Store
 from .events import change_of, match_events, run_diff, trend
 
@@ -29,6 +32,12 @@ def unix_s(jd: float, fr: float) -> float:
     return ((jd - 2440587.5) + fr) * 86400.0
 
 
+def tle_writable(rec) -> bool:
+    """A TLE's 5-column number field holds catalog numbers up to alpha-5 Z9999 (339999)."""
+    n = catalog_id_to_int(rec.catalog_id)
+    return n is not None and n <= SGP4_MAX_SATNUM and len(rec.catalog_id) <= 5
+
+
 def _elset_rows(run_id, req, encounters):
     """Element sets of every primary and of each secondary that has an encounter (the whole
     catalog is identified by its files' SHA-256 in the run row; storing 30,000 sets a night
@@ -38,13 +47,14 @@ def _elset_rows(run_id, req, encounters):
     for role, recs in (("primary", req.primaries),
                        ("catalog", [r for r in req.catalog if r.catalog_id in involved])):
         for r in recs:
-            l1, l2 = r.to_tle()
+            l1, l2 = r.to_tle() if tle_writable(r) else (None, None)
             rows.append((run_id, r.catalog_id, r.name, role, "element set",
-                         iso_z(r.epoch, 6), str(r.source), l1, l2))
+                         iso_z(r.epoch, 6), str(r.source), l1, l2, json.dumps(omm_fields(r))))
     for o in req.primary_oems:
         seg = o.segments[0]
         rows.append((run_id, o.object_id, o.object_name, "primary", "OEM",
-                     iso_z(jd_to_datetime(seg.start_jd, seg.t_s[0] / 86400.0), 3), o.path, None, None))
+                     iso_z(jd_to_datetime(seg.start_jd, seg.t_s[0] / 86400.0), 3), o.path, None, None,
+                     None))
     return rows
 
 
@@ -72,7 +82,7 @@ def commit_run(store: Store, *, name: str, config_snapshot: dict, inputs_files: 
              len(req.primaries) + len(req.primary_oems), len(req.catalog), len(result.encounters),
              log_path)).lastrowid
         _hold("after-run-row")
-        conn.executemany("INSERT OR REPLACE INTO elsets VALUES (?,?,?,?,?,?,?,?,?)", _elset_rows(run_id, req, result.encounters))
+        conn.executemany("INSERT OR REPLACE INTO elsets VALUES (?,?,?,?,?,?,?,?,?,?)", _elset_rows(run_id, req, result.encounters))
         encs = result.encounters
         tcas = [unix_s(*e.tca_jd) for e in encs]
         matches = match_events(conn, run_id, [(e.primary, e.secondary, t) for e, t in zip(encs, tcas)],
