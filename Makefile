@@ -6,7 +6,7 @@ BIN := $(VENV)/bin
 STAMP := $(VENV)/.installed
 TEST_STAMP := $(VENV)/.installed-test
 
-.PHONY: demo test bench bench-tui clean
+.PHONY: demo test bench bench-tui mutation clean
 
 $(BIN)/python:
 	$(PY) -m venv $(VENV)
@@ -32,5 +32,12 @@ bench: $(TEST_STAMP)
 bench-tui: $(TEST_STAMP)
 	$(BIN)/python -m screener.bench_tui
 
+# Mutation testing of the core modules (slow: about an hour on 2 cores; not part of `make test`).
+# Results: .venv/bin/mutmut results; per-module figures in DEVELOPERS.md.
+mutation: $(TEST_STAMP)
+	$(BIN)/python -m pip install --quiet -e '.[test,mutation]'
+	$(BIN)/mutmut run --max-children 2
+	$(BIN)/python .ci/mutation_report.py
+
 clean:
-	rm -rf $(VENV) .pytest_cache demo-out
+	rm -rf $(VENV) .pytest_cache demo-out mutants

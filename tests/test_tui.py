@@ -22,7 +22,7 @@ from screener.tui.triage import TriageScreen
 from .nightly import write_config
 
 NOW = dt.datetime(2026, 12, 2, tzinfo=dt.timezone.utc).timestamp()
-pytestmark = pytest.mark.timeout(120)
+pytestmark = pytest.mark.timeout(600)  # includes building the demo store on first use
 
 
 def _db_rows(store, run_id=2):
@@ -239,3 +239,68 @@ async def test_no_color_and_light_theme(store, monkeypatch):
         await pilot.press("enter", "2", "escape")
         assert app.no_color and app.theme == "textual-light"
         assert isinstance(app.screen, TriageScreen)
+
+
+@pytest.mark.parametrize("size", [(80, 24), (160, 48)])
+async def test_rendered_rows_carry_the_stored_values(store, size):
+    """What the snapshots show, asserted as values: each visible row's cells, cut at the
+    column layout, equal the stored encounter's figures at display precision."""
+    from screener.tui.encounter_list import visible_columns
+
+    db = {r["id"]: r for r in _db_rows(store)}
+    app = make_app(store, now=lambda: NOW)
+    async with app.run_test(size=size) as pilot:
+        await pilot.pause()
+        lst = _list(app)
+        checked = 0
+        for y in range(min(8, len(lst.model))):
+            text = "".join(seg.text for seg in lst.render_line(y))
+            row = lst.model.row(y)
+            want = db[row.id]
+            cells, x = {}, 1          # column 0 holds the cursor marker
+            for title, w, *_ in visible_columns(lst.size.width):
+                cells.setdefault(title, text[x:x + w].strip())
+                x += w + 1
+            assert cells["level"] == want["attention"]
+            assert abs(float(cells["Pc"]) - want["pc"]) <= 0.051 * want["pc"] + 1e-300
+            assert abs(float(cells["miss km"]) - want["miss_km"]) <= 0.0005 + 1e-12
+            assert abs(float(cells["km/s"]) - want["relative_speed_km_s"]) <= 0.005 + 1e-12
+            assert cells["primary"] == want["primary_id"][:9]
+            assert cells["secondary"] == want["secondary_id"][:9]
+            assert want["tca_utc"][5:16].replace("T", " ") in text
+            checked += 1
+        assert checked == 8
+
+
+async def test_names_are_shown_as_text_never_as_markup(store):
+    """A name holding textual markup (once a MarkupError crash on Enter) is shown literally."""
+    import json as _json
+
+    evil = "[/][link=file:///etc/passwd]X[b]"
+    c = sqlite3.connect(store)
+    rid = c.execute("SELECT id FROM encounters WHERE run_id=2 ORDER BY pc DESC LIMIT 1").fetchone()[0]
+    data = _json.loads(c.execute("SELECT data_json FROM encounters WHERE id=?", (rid,)).fetchone()[0])
+    data["secondary_name"] = evil
+    c.execute("UPDATE encounters SET secondary_name=?, data_json=? WHERE id=?",
+              (evil, _json.dumps(data), rid))
+    c.commit()
+    c.close()
+    app = make_app(store, now=lambda: NOW)
+    async with app.run_test(size=(160, 48)) as pilot:
+        await pilot.pause()
+        await pilot.press("enter")
+        await pilot.pause()
+        assert isinstance(app.screen, EventScreen)
+        shown = (str(app.screen.query_one("#event-title").render())
+                 + str(app.screen.query_one("#event-facts").render()))
+        assert evil in shown
+
+
+async def test_a_junk_store_is_named_as_such(tmp_path):
+    junk = tmp_path / "junk.sqlite"
+    junk.write_bytes(b"not a database" * 100)
+    app = make_app(str(junk), now=lambda: NOW)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await pilot.pause()
+        text = str(app.screen.query_one("#run-line").render())
+        assert "not a usable screener store" in text and "No store at" not in text

@@ -133,11 +133,33 @@ def _on_sigterm(signum, frame):
     raise Terminated()
 
 
+ENV_UMASK = "SCREENER_UMASK"
+DEFAULT_UMASK = 0o077   # store, logs and exports hold the fleet's orbits: user-only by default
+
+
+def _set_umask() -> None:
+    """Files this process creates are user-only (0600 / folders 0700) unless $SCREENER_UMASK
+    (octal, e.g. 027 for group-readable) says otherwise."""
+    text = os.environ.get(ENV_UMASK, "")
+    try:
+        mask = int(text, 8) if text else DEFAULT_UMASK
+    except ValueError:
+        mask = -1
+    if not 0 <= mask <= 0o777:
+        raise ScreenerError(f"{ENV_UMASK}={text!r}: give an octal mask such as 077 or 027")
+    os.umask(mask | 0o002)      # never world-writable
+
+
 def main(argv=None) -> int:
     import signal
 
     ap = make_parser()
     args = ap.parse_args(argv)
+    try:
+        _set_umask()
+    except ScreenerError as exc:
+        print(f"screener: error: {exc}", file=sys.stderr)
+        return EXIT_BAD_INPUT
     try:
         signal.signal(signal.SIGTERM, _on_sigterm)
         # Ctrl-C always interrupts cleanly, even when started from a shell that made SIGINT
@@ -159,6 +181,15 @@ def main(argv=None) -> int:
     except Terminated:
         print("screener: terminated (SIGTERM); nothing of this run was stored", file=sys.stderr)
         return EXIT_TERMINATED
+    except BrokenPipeError:
+        # the reader of our output went away (`screener risk ... | head`): stop quietly, and
+        # keep Python from complaining again when it flushes stdout at exit
+        devnull = os.open(os.devnull, os.O_WRONLY)
+        os.dup2(devnull, sys.stdout.fileno())
+        return EXIT_OK
+    except RecursionError:
+        print("screener: error: input nested too deeply to read", file=sys.stderr)
+        return EXIT_BAD_INPUT
 
 
 if __name__ == "__main__":

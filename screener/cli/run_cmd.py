@@ -43,12 +43,12 @@ def add_run_parsers(sub) -> None:
     p.set_defaults(func=cmd_tui)
 
 
-def open_store(path, create=True):
+def open_store(path, create=True, readonly=False):
     from ..store import Store
     from ..errors import StoreError
 
     try:
-        return Store(path, create=create)
+        return Store(path, create=create, readonly=readonly)
     except ScreenerError as exc:
         raise StoreError(str(exc)) from None
 
@@ -129,7 +129,7 @@ def cmd_init(args) -> int:
 def cmd_export(args) -> int:
     from ..exports import export_run
 
-    store = open_store(args.store, create=False)
+    store = open_store(args.store, create=False, readonly=True)
     try:
         written = export_run(store, args.run, args.out, cdm=args.cdm, report=args.report)
     finally:

@@ -22,6 +22,9 @@ def fmt_log10(pc: float) -> str:
     return f"{math.log10(pc):6.1f}" if pc > 0 else f"{'-inf':>6}"
 
 
+UNUSABLE_LISTED = 5
+
+
 def render(result, limit: int = 25, thresholds=None, diff=None) -> str:
     req = result.request
     encs = ranked(result.encounters)
@@ -36,7 +39,12 @@ def render(result, limit: int = 25, thresholds=None, diff=None) -> str:
         lines.append("Attention: " + "   ".join(f"{lv} {counts[lv]}" for lv in LEVELS)
                      + f"   [{thresholds.describe()}]")
     if result.unusable:
-        lines.append(f"Objects with unusable states (skipped where unusable): {len(result.unusable)}")
+        lines.append(f"Objects not screened over part or all of the window: {len(result.unusable)}")
+        items = sorted(result.unusable.items())
+        for oid, why in items[:UNUSABLE_LISTED]:
+            lines.append(f"  {oid}: {why}")
+        if len(items) > UNUSABLE_LISTED:
+            lines.append(f"  ... and {len(items) - UNUSABLE_LISTED} more (all in --json)")
     if diff is not None:
         lines.append(render_diff(diff))
     if encs:

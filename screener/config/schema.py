@@ -12,7 +12,8 @@ import os
 import tomllib
 from typing import Any
 
-from ..errors import ConfigError
+from ..errors import ConfigError, ParseError
+from ..textfile import read_bytes
 from ..risk.attention import DEFAULT_ACT_PC, DEFAULT_WATCH_PC, Thresholds
 from ..risk.covariance import SigmaGrowth
 from .lines import key_lines
@@ -60,7 +61,9 @@ class Config:
     radius_km: float = 5.0
     ric_km: tuple[float, float, float] | None = None
     workers: int = 2
-    dask_scheduler: str | None = None  # e.g. "tcp://10.0.0.5:8786": run tasks on that cluster
+    dask_scheduler: str | None = None  # e.g. "tls://10.0.0.5:8786": run tasks on that cluster
+    dask_tls: dict = dataclasses.field(default_factory=dict)   # ca_file, cert_file, key_file
+    dask_allow_plain_tcp: bool = False  # tcp:// to a host other than loopback
     max_elset_age_days: float = 7.0
     strict: bool = False
     fleet_default_radius_m: float = DEFAULT_RADIUS_M
@@ -188,10 +191,9 @@ TOP = {"run", "fleet", "catalog", "volume", "covariance", "thresholds", "events"
 
 def load_config(path: str) -> Config:
     try:
-        with open(path, "rb") as fh:
-            raw = fh.read()
-    except OSError as exc:
-        raise ConfigError(f"{path}: cannot read configuration: {exc.strerror}") from None
+        raw = read_bytes(path, "configuration")
+    except ParseError as exc:
+        raise ConfigError(str(exc)) from None
     text = raw.decode("utf-8", "replace")
     try:
         data = tomllib.loads(text)
@@ -204,7 +206,8 @@ def _build(data: dict, rd: _Reader, base: str, path: str | None) -> Config:
     rd.table(data, (), TOP)
     run = rd.table(data.get("run", {}), ("run",),
                    {"name", "start", "window_days", "workers", "max_elset_age_days", "strict",
-                    "dask_scheduler"})
+                    "dask_scheduler", "dask_tls_ca_file", "dask_tls_cert_file",
+                    "dask_tls_key_file", "dask_allow_plain_tcp"})
     fleet = rd.table(data.get("fleet", {}), ("fleet",), {"files", "default_radius_m", "objects"})
     cat = rd.table(data.get("catalog", {}), ("catalog",), {"sources", "default_radius_m", "objects", "as_of"})
     vol = rd.table(data.get("volume", {}), ("volume",), {"shape", "radius_km", "ric_km"})
@@ -233,6 +236,17 @@ def _build(data: dict, rd: _Reader, base: str, path: str | None) -> Config:
     cfg.max_elset_age_days = rd.num(run, ("run", "max_elset_age_days"), 7.0, positive=True)
     cfg.strict = rd.boolean(run, ("run", "strict"), False)
     cfg.dask_scheduler = rd.string(run, ("run", "dask_scheduler"), None)
+    for key in ("ca_file", "cert_file", "key_file"):
+        got = rd.paths(run, ("run", f"dask_tls_{key}"), base, required=False)
+        if got:
+            cfg.dask_tls[key] = got[0]
+    cfg.dask_allow_plain_tcp = rd.boolean(run, ("run", "dask_allow_plain_tcp"), False)
+    if cfg.dask_scheduler:
+        from ..pipeline.cluster import address_problem
+
+        why = address_problem(cfg.dask_scheduler, cfg.dask_allow_plain_tcp, cfg.dask_tls)
+        if why:
+            rd.fail(("run", "dask_scheduler"), why)
 
     cfg.fleet_default_radius_m = rd.num(fleet, ("fleet", "default_radius_m"), DEFAULT_RADIUS_M, positive=True)
     for oid, m in rd.table(fleet.get("objects", {}), ("fleet", "objects"), None).items():

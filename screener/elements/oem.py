@@ -3,11 +3,14 @@
 from __future__ import annotations
 
 import dataclasses
+import math
 import re
 
 import numpy as np
 
 from ..errors import ParseError
+from ..textfile import clean_name, clean_text, read_text
+from .ids import object_id_problem
 from ..timeutil import datetime_to_jd, parse_iso
 
 _KVN = re.compile(r"^\s*([A-Z0-9_]+)\s*=\s*(.*?)\s*$")
@@ -41,11 +44,26 @@ class OemSegment:
     line: int                 # line of META_START
 
 
+@dataclasses.dataclass(frozen=True)
+class OemGap:
+    """A stretch inside a segment with no ephemeris lines for longer than GAP_STEPS steps:
+    never interpolated across (the segment is split there)."""
+    line: int                 # the ephemeris line after the gap
+    start_jd: float
+    start_s: float            # from start_jd
+    stop_s: float
+
+    @property
+    def duration_s(self) -> float:
+        return self.stop_s - self.start_s
+
+
 @dataclasses.dataclass
 class Oem:
     path: str
     originator: str
     segments: list[OemSegment]
+    gaps: list[OemGap] = dataclasses.field(default_factory=list)
 
     @property
     def object_id(self) -> str:
@@ -65,9 +83,7 @@ def _epoch(text: str, path: str, line: int) -> tuple[float, float]:
 
 def read_oem(path: str, text: str | None = None) -> Oem:
     """Parse an OEM file; every problem is a ParseError with file and line."""
-    if text is None:
-        with open(path, encoding="utf-8", errors="replace") as fh:
-            text = fh.read()
+    text = read_text(path, "OEM") if text is None else clean_text(text)
     lines = text.splitlines()
     header: dict[str, str] = {}
     segments: list[OemSegment] = []
@@ -79,8 +95,8 @@ def read_oem(path: str, text: str | None = None) -> Oem:
             i += 1
             continue
         if s == "META_START":
-            seg, i = _segment(lines, i, path)
-            segments.append(seg)
+            seg, line_of, i = _segment(lines, i, path)
+            segments.append((seg, line_of))
             continue
         m = _KVN.match(s)
         if not m:
@@ -92,10 +108,37 @@ def read_oem(path: str, text: str | None = None) -> Oem:
         raise ParseError("missing CCSDS_OEM_VERS header keyword", path, 1)
     if not segments:
         raise ParseError("no META_START segment found (truncated file?)", path, n)
-    return Oem(path=path, originator=header.get("ORIGINATOR", ""), segments=segments)
+    parts, gaps = [], []
+    for seg, line_of in segments:
+        parts += _split_at_gaps(seg, line_of, gaps)
+    return Oem(path=path, originator=header.get("ORIGINATOR", ""), segments=parts, gaps=gaps)
 
 
-def _segment(lines: list[str], i: int, path: str) -> tuple[OemSegment, int]:
+GAP_STEPS = 3.0     # a step longer than this many times the segment's median step is a gap
+
+
+def _split_at_gaps(seg: OemSegment, line_of: list[int], gaps: list) -> list[OemSegment]:
+    dt = np.diff(seg.t_s)
+    cut = np.nonzero(dt > GAP_STEPS * float(np.median(dt)))[0]
+    if not len(cut):
+        return [seg]
+    out, a = [], 0
+    for c in [*cut, len(seg.t_s) - 1]:
+        b = c + 1
+        if b - a >= 2:
+            t0, t1 = seg.t_s[a], seg.t_s[b - 1]
+            out.append(dataclasses.replace(
+                seg, t_s=seg.t_s[a:b], r_km=seg.r_km[a:b], v_km_s=seg.v_km_s[a:b],
+                useable_start_s=max(seg.useable_start_s, t0), useable_stop_s=min(seg.useable_stop_s, t1),
+                covariances=[cv for cv in seg.covariances
+                             if t0 <= ((cv.epoch_jd - seg.start_jd) + cv.epoch_fr) * 86400.0 <= t1]))
+        a = b
+    for c in cut:
+        gaps.append(OemGap(line_of[c + 1], seg.start_jd, float(seg.t_s[c]), float(seg.t_s[c + 1])))
+    return out
+
+
+def _segment(lines: list[str], i: int, path: str) -> tuple[OemSegment, list[int], int]:
     meta_line = i + 1
     meta: dict[str, tuple[str, int]] = {}
     i += 1
@@ -114,6 +157,9 @@ def _segment(lines: list[str], i: int, path: str) -> tuple[OemSegment, int]:
                 "START_TIME", "STOP_TIME"):
         if key not in meta:
             raise ParseError(f"missing required OEM metadata keyword {key}", path, meta_line)
+    why = object_id_problem(meta["OBJECT_ID"][0])
+    if why:
+        raise ParseError(why, path, meta["OBJECT_ID"][1])
     frame = meta["REF_FRAME"][0].upper()
     if frame not in SUPPORTED_FRAMES:
         raise ParseError(f"REF_FRAME {frame} not supported (use one of {', '.join(SUPPORTED_FRAMES)})",
@@ -141,7 +187,7 @@ def _segment(lines: list[str], i: int, path: str) -> tuple[OemSegment, int]:
         raise ParseError("INTERPOLATION_DEGREE is not an integer", path,
                          meta["INTERPOLATION_DEGREE"][1]) from None
     i += 1
-    t_list, rv_list, covs = [], [], []
+    t_list, rv_list, covs, line_of = [], [], [], []
     while i < n:
         s = lines[i].strip()
         if not s or s.startswith("COMMENT"):
@@ -164,23 +210,31 @@ def _segment(lines: list[str], i: int, path: str) -> tuple[OemSegment, int]:
         except ValueError:
             raise ParseError("non-numeric value in ephemeris line", path, i + 1,
                              len(lines[i]) - len(lines[i].lstrip()) + len(parts[0]) + 2) from None
+        if not all(math.isfinite(x) for x in vals):
+            raise ParseError("non-finite value (NaN or infinity) in ephemeris line", path, i + 1, 1)
         t = secs(jd, fr)
         if t_list and t <= t_list[-1]:
             raise ParseError("ephemeris epochs must increase within a segment", path, i + 1, 1)
         t_list.append(t)
         rv_list.append(vals)
+        line_of.append(i + 1)
         i += 1
     if len(t_list) < 2:
         raise ParseError("segment has fewer than two ephemeris lines", path, meta_line)
     rv = np.array(rv_list)
+    radius = np.linalg.norm(rv[:, :3], axis=1)
+    if frame != "RTN" and not ((radius > 6378.137 - 100.0) & (radius < 500_000.0)).all():
+        k = int(np.argmax(~((radius > 6378.137 - 100.0) & (radius < 500_000.0))))
+        raise ParseError(f"ephemeris position {radius[k]:.1f} km from the Earth's centre is not "
+                         f"an Earth orbit", path, line_of[k])
     seg = OemSegment(
-        object_name=meta["OBJECT_NAME"][0], object_id=meta["OBJECT_ID"][0],
+        object_name=clean_name(meta["OBJECT_NAME"][0]), object_id=meta["OBJECT_ID"][0],
         center="EARTH", frame=frame, time_system=ts, start_jd=start_jd,
         t_s=np.array(t_list), r_km=rv[:, :3], v_km_s=rv[:, 3:],
         useable_start_s=max(useable_start, t_list[0]), useable_stop_s=min(useable_stop, t_list[-1]),
         interpolation=interp, degree=max(1, degree), covariances=covs, line=meta_line,
     )
-    return seg, i
+    return seg, line_of, i
 
 
 def _covariances(lines, i, path, frame, out) -> int:

@@ -5,11 +5,14 @@ from __future__ import annotations
 import csv
 import io
 import json
+import math
 import re
 from typing import Iterator
 
 from ..errors import ParseError
 from ..timeutil import datetime_to_jd, iso_z, jd_to_datetime, parse_iso
+from ..textfile import clean_name
+from .ids import object_id_problem
 from .record import ElementSet, Source, check_elements
 
 # Keywords this reader needs for SGP4 (CCSDS 502.0-B-3, section 4, mean elements + TLE params).
@@ -24,10 +27,21 @@ def _num(fields: dict, key: str, src: Source, default: float | None = None) -> f
             return default
         raise ParseError(f"missing required OMM keyword {key}", src.path, src.line)
     try:
-        return float(fields[key])
-    except (TypeError, ValueError):
-        raise ParseError(f"OMM keyword {key} is not numeric: {fields[key]!r}", src.path,
+        value = float(fields[key])
+    except (TypeError, ValueError, OverflowError):
+        raise ParseError(f"OMM keyword {key} is not numeric: {str(fields[key])[:40]!r}", src.path,
                          src.line) from None
+    if not math.isfinite(value):
+        raise ParseError(f"OMM keyword {key} is not a finite number: {value}", src.path, src.line)
+    return value
+
+
+def _int(fields: dict, key: str, src: Source, default: int) -> int:
+    value = _num(fields, key, src, float(default))
+    if not (value.is_integer() and abs(value) < 1e9):
+        raise ParseError(f"OMM keyword {key} must be a whole number below 1e9: {value}",
+                         src.path, src.line)
+    return int(value)
 
 
 def record_from_omm_fields(fields: dict, src: Source) -> ElementSet:
@@ -45,14 +59,17 @@ def record_from_omm_fields(fields: dict, src: Source) -> ElementSet:
         raise ParseError(f"unparseable EPOCH: {exc}", src.path, src.line) from None
     jd, fr = datetime_to_jd(epoch)
     cat = fields.get("NORAD_CAT_ID")
-    cat_id = str(cat).strip() if cat not in (None, "") else str(fields.get("OBJECT_ID", "")).strip()
+    if isinstance(cat, float) and math.isfinite(cat) and cat.is_integer():
+        cat = str(int(cat))
+    cat_id = clean_name(cat) if cat not in (None, "") else clean_name(fields.get("OBJECT_ID", ""))
     if not cat_id:
         raise ParseError("missing required OMM keyword NORAD_CAT_ID", src.path, src.line)
-    if isinstance(cat, float) and cat.is_integer():
-        cat_id = str(int(cat))
+    why = object_id_problem(cat_id)
+    if why:
+        raise ParseError(why, src.path, src.line)
     rec = ElementSet(
         catalog_id=cat_id,
-        name=str(fields.get("OBJECT_NAME", "") or "").strip(),
+        name=clean_name(fields.get("OBJECT_NAME", "") or ""),
         epoch_jd=jd,
         epoch_fr=fr,
         mean_motion_rev_day=_num(fields, "MEAN_MOTION", src),
@@ -64,11 +81,11 @@ def record_from_omm_fields(fields: dict, src: Source) -> ElementSet:
         bstar_per_earth_radius=_num(fields, "BSTAR", src),
         ndot_rev_day2=_num(fields, "MEAN_MOTION_DOT", src, 0.0),
         nddot_rev_day3=_num(fields, "MEAN_MOTION_DDOT", src, 0.0),
-        intl_designator=str(fields.get("OBJECT_ID", "") or "").strip(),
-        classification=str(fields.get("CLASSIFICATION_TYPE", "U") or "U").strip(),
-        element_set_no=int(_num(fields, "ELEMENT_SET_NO", src, 999)),
-        rev_at_epoch=int(_num(fields, "REV_AT_EPOCH", src, 0)),
-        ephemeris_type=int(_num(fields, "EPHEMERIS_TYPE", src, 0)),
+        intl_designator=clean_name(fields.get("OBJECT_ID", "") or ""),
+        classification=clean_name(fields.get("CLASSIFICATION_TYPE", "U") or "U")[:1] or "U",
+        element_set_no=_int(fields, "ELEMENT_SET_NO", src, 999),
+        rev_at_epoch=_int(fields, "REV_AT_EPOCH", src, 0),
+        ephemeris_type=_int(fields, "EPHEMERIS_TYPE", src, 0),
         source=src,
     )
     reason = check_elements(rec)
@@ -178,6 +195,9 @@ def iter_omm_json(text: str, path: str) -> Iterator[ElementSet | ParseError]:
         data = json.loads(text)
     except json.JSONDecodeError as exc:
         yield ParseError(f"malformed JSON: {exc.msg}", path, exc.lineno, exc.colno)
+        return
+    except RecursionError:
+        yield ParseError("JSON nested too deeply (an OMM list holds flat objects)", path, 1)
         return
     if isinstance(data, dict):
         data = [data]

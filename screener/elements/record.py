@@ -120,12 +120,47 @@ class ElementSet:
         return f"{self.catalog_id} {self.name}".strip()
 
 
+# Physical ranges every element set must meet (common practice for SGP4 mean elements; the
+# bounds are generous: they refuse nonsense, not unusual orbits).
+MAX_MEAN_MOTION_REV_DAY = 20.0      # ~ a 100 km circular orbit is 16.4 rev/day
+MAX_ABS_BSTAR = 1.0                 # per Earth radius; real values are below ~0.05
+MAX_ABS_NDOT = 1.0                  # rev/day^2 (TLE field limit)
+MAX_ABS_NDDOT = 1.0                 # rev/day^3
+MAX_ABS_ANGLE_DEG = 1e6             # any finite angle is reduced mod 360; this is absurdity
+EPOCH_MIN_JD = 2436115.5            # 1957-10-04
+EPOCH_MAX_JD = 2488069.5            # 2100-01-01
+
+
 def check_elements(rec: ElementSet) -> str | None:
-    """Physical checks common to every format; returns a reason or None."""
+    """Physical checks common to every format; returns a reason or None.  Every numeric field
+    must be finite and in range: a NaN or an infinity would otherwise pass silently and the
+    object would never be screened."""
+    numeric = (("epoch", rec.epoch_jd + rec.epoch_fr), ("mean motion", rec.mean_motion_rev_day),
+               ("eccentricity", rec.eccentricity), ("inclination", rec.inclination_deg),
+               ("RAAN", rec.raan_deg), ("argument of perigee", rec.arg_perigee_deg),
+               ("mean anomaly", rec.mean_anomaly_deg), ("B*", rec.bstar_per_earth_radius),
+               ("first derivative of mean motion", rec.ndot_rev_day2),
+               ("second derivative of mean motion", rec.nddot_rev_day3))
+    for what, x in numeric:
+        if not math.isfinite(x):
+            return f"{what} is not a finite number ({x})"
     if not (0.0 <= rec.eccentricity < 1.0):
         return f"eccentricity {rec.eccentricity} outside [0, 1)"
-    if not (rec.mean_motion_rev_day > 0.0):
-        return f"mean motion {rec.mean_motion_rev_day} rev/day is not positive"
+    if not (0.0 < rec.mean_motion_rev_day <= MAX_MEAN_MOTION_REV_DAY):
+        # (a tiny positive mean motion is left to SGP4, which reports it as its error 1 or 3)
+        return f"mean motion {rec.mean_motion_rev_day} rev/day outside (0, {MAX_MEAN_MOTION_REV_DAY}]"
     if not (0.0 <= rec.inclination_deg <= 180.0):
         return f"inclination {rec.inclination_deg} deg outside [0, 180]"
+    for what, x in (("RAAN", rec.raan_deg), ("argument of perigee", rec.arg_perigee_deg),
+                    ("mean anomaly", rec.mean_anomaly_deg)):
+        if abs(x) > MAX_ABS_ANGLE_DEG:
+            return f"{what} {x} deg is not a plausible angle"
+    if abs(rec.bstar_per_earth_radius) > MAX_ABS_BSTAR:
+        return f"B* {rec.bstar_per_earth_radius} outside [-{MAX_ABS_BSTAR}, {MAX_ABS_BSTAR}] per Earth radius"
+    if abs(rec.ndot_rev_day2) > MAX_ABS_NDOT:
+        return f"first derivative of mean motion {rec.ndot_rev_day2} outside +-{MAX_ABS_NDOT} rev/day^2"
+    if abs(rec.nddot_rev_day3) > MAX_ABS_NDDOT:
+        return f"second derivative of mean motion {rec.nddot_rev_day3} outside +-{MAX_ABS_NDDOT} rev/day^3"
+    if not (EPOCH_MIN_JD <= rec.epoch_jd + rec.epoch_fr <= EPOCH_MAX_JD):
+        return f"epoch {rec.epoch_jd + rec.epoch_fr:.1f} (JD) outside 1957-10-04 .. 2100-01-01"
     return None

@@ -6,6 +6,7 @@ import datetime as _dt
 from typing import Iterator
 
 from ..errors import ParseError
+from ..textfile import clean_name
 from ..timeutil import datetime_to_jd
 from .record import ElementSet, Source, check_elements
 
@@ -118,7 +119,7 @@ def parse_tle_pair(line1: str, line2: str, name: str = "", source: Source | None
         raise ParseError(f"eccentricity is not numeric: {ecc_text!r}", src2.path, src2.line, 27)
     rec = ElementSet(
         catalog_id=cat1,
-        name=name.strip(),
+        name=clean_name(name),
         epoch_jd=jd,
         epoch_fr=fr,
         mean_motion_rev_day=_field(l2, 53, 63, "mean motion", src2),

@@ -16,6 +16,7 @@ from .. import CAUTION, __version__
 from ..propagation.frames import gcrf_to_teme_matrices
 from ..risk.cdm import write_cdm
 from ..screening.ric import ric_basis
+from ..textfile import clean_name
 from ..timeutil import datetime_to_jd, iso_z, parse_iso
 
 
@@ -65,8 +66,8 @@ def cdm_for_encounter(e: dict, maneuverable: dict | None = None, originator: str
         cov[:3, :3] = np.asarray(e.get(f"{who}_cov_rtn_km2") or np.zeros((3, 3))) * 1e6
         src = e.get(f"{who}_covariance", "")
         objects.append({
-            "OBJECT": f"OBJECT{k}", "OBJECT_DESIGNATOR": e[who],
-            "CATALOG_NAME": "SCREENER", "OBJECT_NAME": e.get(f"{who}_name") or "UNKNOWN",
+            "OBJECT": f"OBJECT{k}", "OBJECT_DESIGNATOR": _safe(e[who]),
+            "CATALOG_NAME": "SCREENER", "OBJECT_NAME": clean_name(e.get(f"{who}_name") or "") or "UNKNOWN",
             "INTERNATIONAL_DESIGNATOR": "UNKNOWN", "EPHEMERIS_NAME": "NONE",
             "COVARIANCE_METHOD": "DEFAULT" if "assumed" in src else "CALCULATED",
             "MANEUVERABLE": {True: "YES", False: "NO"}.get(maneuverable.get(e[who]), "N/A"),

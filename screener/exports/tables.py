@@ -31,9 +31,21 @@ def write_json(path: str, run_header: dict, encounters: list[dict]) -> None:
         json.dump(_clean(doc), fh, indent=1, allow_nan=False)
 
 
+def csv_cell(x) -> str:
+    """A CSV cell that a spreadsheet shows as text, never runs: text starting with = + - @
+    (or a tab / carriage return) gets a leading apostrophe (common practice against formula
+    injection); numbers are written as numbers."""
+    if x is None or (isinstance(x, float) and not math.isfinite(x)):
+        return ""
+    if isinstance(x, (bool, int, float)):
+        return str(x)
+    text = str(x)
+    return "'" + text if text[:1] in ("=", "+", "-", "@", "\t", "\r") else text
+
+
 def write_csv(path: str, encounters: list[dict]) -> None:
     with open(path, "w", encoding="utf-8", newline="") as fh:
         w = csv.writer(fh)
         w.writerow(CSV_FIELDS)
         for e in encounters:
-            w.writerow(["" if _clean(e.get(k)) is None else e.get(k) for k in CSV_FIELDS])
+            w.writerow([csv_cell(e.get(k)) for k in CSV_FIELDS])

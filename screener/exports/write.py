@@ -3,7 +3,10 @@
 from __future__ import annotations
 
 import dataclasses
+import json
 import os
+import shutil
+import tempfile
 
 from ..errors import ScreenerError
 from ..risk.attention import LEVEL_RANK
@@ -18,45 +21,85 @@ CDM_LEVEL = {"none": -1, "act": LEVEL_RANK["act"], "watch": LEVEL_RANK["watch"],
 def run_encounters(store, run_id: int) -> list[dict]:
     rows = store.conn.execute("SELECT id, data_json FROM encounters WHERE run_id=? ORDER BY pc DESC, "
                               "miss_km", (run_id,)).fetchall()
-    import json
-
     return [{**json.loads(r["data_json"]), "encounter_id": r["id"]} for r in rows]
+
+
+MARKER = ".screener-export.json"     # which store and run a folder of exports belongs to
+
+
+def _owner(folder: str) -> dict | None:
+    try:
+        with open(os.path.join(folder, MARKER), encoding="utf-8") as fh:
+            return json.load(fh)
+    except (OSError, ValueError):
+        return None
 
 
 def export_run(store, run_id: int | None, folder: str, json_out=True, csv_out=True, cdm="act",
                report="text", diff_text: str = "") -> list[str]:
-    """Write the chosen exports; returns the paths written."""
+    """Write the chosen exports into `folder`; returns the paths written.  Everything is
+    written into a fresh sibling folder first and renamed into place, so a reader never sees
+    a half export and two stores never mix their files: an existing folder is replaced only
+    when it holds an earlier export of the same store and run, and refused otherwise."""
     info = queries.run(store, run_id)
     if info is None:
         raise ScreenerError(f"{store.path}: no run {run_id if run_id is not None else '(store is empty)'}")
+    folder = os.path.abspath(folder)
+    owner = {"store": store.path, "run_id": info.id}
+    if os.path.exists(folder):
+        if not os.path.isdir(folder):
+            raise ScreenerError(f"{folder}: exists and is not a folder; exports not written")
+        if os.listdir(folder) and _owner(folder) != owner:
+            raise ScreenerError(f"{folder}: holds files that are not an export of run {info.id} of "
+                                f"{store.path}; exports not written (choose another folder)")
+    parent = os.path.dirname(folder)
     try:
-        os.makedirs(folder, exist_ok=True)
+        os.makedirs(parent, exist_ok=True)
+        tmp = tempfile.mkdtemp(prefix=f".{os.path.basename(folder)}.", dir=parent)
     except OSError as exc:
         raise ScreenerError(f"cannot create {folder}: {exc.strerror}") from None
+    try:
+        written = _write_all(store, info, tmp, json_out, csv_out, cdm, report, diff_text)
+        with open(os.path.join(tmp, MARKER), "w", encoding="utf-8") as fh:
+            json.dump(owner, fh)
+        old = None
+        if os.path.exists(folder):
+            old = tempfile.mkdtemp(prefix=f".{os.path.basename(folder)}.old.", dir=parent)
+            os.rename(folder, os.path.join(old, "x"))
+        os.rename(tmp, folder)
+        if old:
+            shutil.rmtree(old, ignore_errors=True)
+    except OSError as exc:
+        shutil.rmtree(tmp, ignore_errors=True)
+        raise ScreenerError(f"cannot write exports in {folder}: {exc.strerror}") from None
+    except BaseException:
+        shutil.rmtree(tmp, ignore_errors=True)
+        raise
+    return [os.path.join(folder, os.path.relpath(p, tmp)) for p in written]
+
+
+def _write_all(store, info, folder, json_out, csv_out, cdm, report, diff_text) -> list[str]:
     encs = run_encounters(store, info.id)
     head = {"run": {k: v for k, v in dataclasses.asdict(info).items() if k not in ("config", "stats")}}
     written = []
     maneuverable = {k: v.get("maneuverable") for k, v in info.config.get("members", {}).items()}
-    try:
-        if json_out:
-            p = os.path.join(folder, "encounters.json")
-            write_json(p, head, encs)
-            written.append(p)
-        if csv_out:
-            p = os.path.join(folder, "encounters.csv")
-            write_csv(p, encs)
-            written.append(p)
-        limit = CDM_LEVEL[cdm]
-        picked = [e for e in encs if LEVEL_RANK.get(e.get("attention"), 2) <= limit]
-        if picked:
-            cdm_dir = os.path.join(folder, "cdm")
-            os.makedirs(cdm_dir, exist_ok=True)
-            written += [write_event_cdm(cdm_dir, e, maneuverable) for e in picked]
-        if report != "none":
-            p = os.path.join(folder, "report.html" if report == "html" else "report.txt")
-            with open(p, "w", encoding="utf-8") as fh:
-                fh.write(render_report(dataclasses.asdict(info), encs, diff_text, report))
-            written.append(p)
-    except OSError as exc:
-        raise ScreenerError(f"cannot write exports in {folder}: {exc.strerror}") from None
+    if json_out:
+        p = os.path.join(folder, "encounters.json")
+        write_json(p, head, encs)
+        written.append(p)
+    if csv_out:
+        p = os.path.join(folder, "encounters.csv")
+        write_csv(p, encs)
+        written.append(p)
+    limit = CDM_LEVEL[cdm]
+    picked = [e for e in encs if LEVEL_RANK.get(e.get("attention"), 2) <= limit]
+    if picked:
+        cdm_dir = os.path.join(folder, "cdm")
+        os.makedirs(cdm_dir, exist_ok=True)
+        written += [write_event_cdm(cdm_dir, e, maneuverable) for e in picked]
+    if report != "none":
+        p = os.path.join(folder, "report.html" if report == "html" else "report.txt")
+        with open(p, "w", encoding="utf-8") as fh:
+            fh.write(render_report(dataclasses.asdict(info), encs, diff_text, report))
+        written.append(p)
     return written

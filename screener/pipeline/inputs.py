@@ -11,6 +11,8 @@ from ..config import Config
 from ..elements import ElementSet, Oem, load_elements, read_oem, stale_records
 from ..elements.catalog import expand_paths
 from ..errors import ScreenerError
+from ..textfile import open_regular
+from ..timeutil import iso_z, jd_to_datetime
 
 MAX_LISTED = 20
 Warn = Callable[[str], None]
@@ -28,14 +30,14 @@ class Inputs:
 
 def file_digest(path: str) -> dict:
     h = hashlib.sha256()
-    with open(path, "rb") as fh:
+    with open_regular(path) as fh:
         for block in iter(lambda: fh.read(1 << 20), b""):
             h.update(block)
     return {"path": os.path.abspath(path), "sha256": h.hexdigest(), "bytes": os.path.getsize(path)}
 
 
 def _is_oem(path: str) -> bool:
-    with open(path, "rb") as fh:
+    with open_regular(path) as fh:
         return "CCSDS_OEM_VERS" in fh.read(4096).decode("utf-8", "replace")
 
 
@@ -45,7 +47,12 @@ def _read(paths, strict: bool, what: str, warn: Warn):
         if not os.path.exists(p):
             raise ScreenerError(f"{p}: no such file or folder ({what})")
         if os.path.isfile(p) and _is_oem(p):
-            oems.append(read_oem(p))
+            oem = read_oem(p)
+            for g in oem.gaps:
+                warn(f"{p}:{g.line}: {g.duration_s / 60:.0f} min without ephemeris lines "
+                     f"(from {iso_z(jd_to_datetime(g.start_jd, g.start_s / 86400.0), 0)}): a "
+                     f"segment break, never interpolated across")
+            oems.append(oem)
             files.append({**file_digest(p), "role": what})
             continue
         others.append(p)
@@ -57,6 +64,11 @@ def _read(paths, strict: bool, what: str, warn: Warn):
             warn(f"skipped: {err}")
         if len(report.errors) > MAX_LISTED:
             warn(f"... and {len(report.errors) - MAX_LISTED} more bad records")
+        for dropped, kept in report.conflicts[:MAX_LISTED]:
+            warn(f"{kept.catalog_id}: conflicting element sets at the same epoch: kept "
+                 f"{kept.source}, dropped {dropped.source} (--strict refuses this)")
+        if len(report.conflicts) > MAX_LISTED:
+            warn(f"... and {len(report.conflicts) - MAX_LISTED} more conflicting element sets")
         for old, new in report.superseded[:3]:
             warn(f"{old.catalog_id}: element set at {old.source} superseded by newer epoch at {new.source}")
         if len(report.superseded) > 3:

@@ -122,7 +122,7 @@ def execute(cfg: Config, store=None, progress: Progress | None = None, cancel=No
         if executor is None and cfg.dask_scheduler:
             from .cluster import connect
 
-            client, executor = connect(cfg.dask_scheduler)
+            client, executor = connect(cfg.dask_scheduler, cfg.dask_tls, cfg.dask_allow_plain_tcp)
             note(f"running tasks on the Dask cluster at {cfg.dask_scheduler}")
         try:
             result = screen(req, progress=report, cancel=cancel, executor=executor)
@@ -130,6 +130,8 @@ def execute(cfg: Config, store=None, progress: Progress | None = None, cancel=No
             if client is not None:
                 client.close()
         note(f"screening: {len(result.encounters)} encounters, {result.stats.get('wall_s', 0):.1f} s")
+        for oid, why in sorted(result.unusable.items()):
+            note(f"not screened: {oid}: {why}")
         n_enc = len(result.encounters)
         add_risk(cfg, inputs, result, progress=report)
         report("risk", n_enc, n_enc)

@@ -8,11 +8,15 @@ km/s, covariance in the object's RTN frame in m^2, m^2/s, m^2/s^2.
 from __future__ import annotations
 
 import dataclasses
+import math
 import re
 
 import numpy as np
 
+from ..constants import MAX_RADIUS_KM
 from ..errors import ParseError
+from ..timeutil import parse_iso
+from ..textfile import clean_text, read_text
 
 HEADER = ("CCSDS_CDM_VERS", "CREATION_DATE", "ORIGINATOR", "MESSAGE_ID")
 RELATIVE = ("TCA", "MISS_DISTANCE")
@@ -23,6 +27,8 @@ STATE = ("X", "Y", "Z", "X_DOT", "Y_DOT", "Z_DOT")
 COV_AXES = ("R", "T", "N", "RDOT", "TDOT", "NDOT")
 COVARIANCE = tuple(f"C{COV_AXES[i]}_{COV_AXES[j]}" for i in range(6) for j in range(i + 1))
 OBLIGATORY_PER_OBJECT = OBJECT_META + STATE + COVARIANCE
+CDM_MIN_RADIUS_KM = 6378.137 + 50.0       # a state below 50 km altitude is no orbit
+CDM_MAX_SPEED_KM_S = 20.0                 # above Earth escape speed at any altitude
 _KVN = re.compile(r"^\s*([A-Z0-9_]+)\s*=\s*(.*?)\s*(\[[^\]]*\])?\s*$")
 
 
@@ -55,12 +61,7 @@ class Cdm:
 
 
 def read_cdm(path: str, text: str | None = None) -> Cdm:
-    if text is None:
-        try:
-            with open(path, encoding="utf-8", errors="replace") as fh:
-                text = fh.read()
-        except OSError as exc:
-            raise ParseError(f"cannot read file: {exc.strerror}", path) from None
+    text = read_text(path, "CDM") if text is None else clean_text(text)
     header, relative, objects = {}, {}, []
     current = None
     lineno_of = {}
@@ -76,6 +77,9 @@ def read_cdm(path: str, text: str | None = None) -> Cdm:
             current = {}
             objects.append(current)
         target = current if current is not None else (header if key in HEADER else relative)
+        if key in target:
+            raise ParseError(f"keyword {key} given twice (first at line "
+                             f"{lineno_of[(len(objects), key)]})", path, lineno, 1)
         target[key] = value
         lineno_of[(len(objects), key)] = lineno
     for key in HEADER:
@@ -98,13 +102,25 @@ def read_cdm(path: str, text: str | None = None) -> Cdm:
 
         def num(key):
             try:
-                return float(obj[key])
+                x = float(obj[key])
             except ValueError:
-                raise ParseError(f"OBJECT{k}: {key} is not numeric: {obj[key]!r}", path,
+                raise ParseError(f"OBJECT{k}: {key} is not numeric: {obj[key][:40]!r}", path,
                                  lineno_of[(k, key)]) from None
+            if not math.isfinite(x):
+                raise ParseError(f"OBJECT{k}: {key} is not a finite number: {obj[key]!r}", path,
+                                 lineno_of[(k, key)])
+            return x
 
         r = np.array([num(x) for x in STATE[:3]])
         v = np.array([num(x) for x in STATE[3:]])
+        rmag, vmag = float(np.linalg.norm(r)), float(np.linalg.norm(v))
+        if not (CDM_MIN_RADIUS_KM <= rmag <= MAX_RADIUS_KM):
+            raise ParseError(f"OBJECT{k}: position magnitude {rmag:.1f} km is not an Earth orbit "
+                             f"({CDM_MIN_RADIUS_KM:.0f} to {MAX_RADIUS_KM:.0f} km)", path,
+                             lineno_of[(k, "X")])
+        if vmag > CDM_MAX_SPEED_KM_S:
+            raise ParseError(f"OBJECT{k}: speed {vmag:.1f} km/s is above {CDM_MAX_SPEED_KM_S:g} km/s",
+                             path, lineno_of[(k, "X_DOT")])
         c = np.zeros((6, 6))
         c[np.tril_indices(6)] = [num(x) for x in COVARIANCE]
         c = c + np.tril(c, -1).T
@@ -113,9 +129,19 @@ def read_cdm(path: str, text: str | None = None) -> Cdm:
                              path, lineno_of[(k, "CR_R")])
         out.append(CdmObject(obj, r, v, c))
     try:
-        float(relative["MISS_DISTANCE"])
+        miss = float(relative["MISS_DISTANCE"])
     except ValueError:
-        raise ParseError("MISS_DISTANCE is not numeric", path, 1) from None
+        miss = math.nan
+    if not (math.isfinite(miss) and miss >= 0):
+        raise ParseError(f"MISS_DISTANCE is not a non-negative number: {relative['MISS_DISTANCE'][:40]!r}",
+                         path, lineno_of[(0, "MISS_DISTANCE")])
+    for key in ("TCA", "CREATION_DATE"):
+        src = relative if key == "TCA" else header
+        try:
+            parse_iso(src[key])
+        except ValueError:
+            raise ParseError(f"{key} is not a UTC date and time: {src[key][:40]!r}", path,
+                             lineno_of[(0, key)]) from None
     return Cdm(path, header, relative, out)
 
 

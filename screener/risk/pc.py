@@ -42,18 +42,27 @@ def pc_quadrature(xm: float, ym: float, sx: float, sy: float, R: float) -> float
     return float(val)
 
 
+CHAN_MAX_TERMS = 5_000_000      # memory bound of one series evaluation (40 MB)
+
+
 def pc_chan(xm: float, ym: float, sx: float, sy: float, R: float, terms: int | None = None) -> float:
     """Chan's series (Chan 2008, Spacecraft Collision Probability): the ellipse replaced by the
     equal-area isotropic case, u = R^2/(sx sy), v = xm^2/sx^2 + ym^2/sy^2,
-    Pc = e^(-v/2) sum_m (v/2)^m/m! [1 - e^(-u/2) sum_k<=m (u/2)^k/k!]."""
+    Pc = e^(-v/2) sum_m (v/2)^m/m! [1 - e^(-u/2) sum_k<=m (u/2)^k/k!].
+    Only the terms within 40 standard deviations of the Poisson weights' peak (m ~ v/2) are
+    summed: the rest add less than e^-800 of the total, so memory grows as sqrt(v), not v."""
     u = R * R / (sx * sy)
     v = (xm / sx) ** 2 + (ym / sy) ** 2
-    if terms is None:  # the Poisson weights peak at m ~ v/2: sum well past it
-        terms = int(50 + v / 2 + 20 * math.sqrt(v / 2))
+    half = v / 2
+    spread = 40.0 * math.sqrt(half) + 50.0
+    lo = max(0, int(half - spread))
+    hi = int(half + spread) if terms is None else terms
+    if hi - lo > CHAN_MAX_TERMS:
+        raise ValueError(f"Chan's series would need {hi - lo:,} terms; use pc_quadrature")
     # 1 - e^(-u/2) sum_k<=m (u/2)^k/k! is the Poisson tail P(N(u/2) > m) = gammainc(m+1, u/2),
     # computed directly so it keeps its digits when it is tiny
-    m = np.arange(terms, dtype=float)
-    log_w = (m * math.log(v / 2) if v > 0 else np.where(m == 0, 0.0, -np.inf)) - v / 2 - special.gammaln(m + 1)
+    m = np.arange(lo, max(hi, lo + 1), dtype=float)
+    log_w = (m * math.log(half) if v > 0 else np.where(m == 0, 0.0, -np.inf)) - half - special.gammaln(m + 1)
     total = float(np.sum(np.exp(log_w) * special.gammainc(m + 1, u / 2)))
     return float(total)
 
@@ -64,6 +73,9 @@ def chan_is_reliable(xm: float, ym: float, sx: float, sy: float, R: float) -> tu
     aspect ratio moderate.  Outside the gate the reference method is used and we say so.
     (The thresholds are our engineering choice, checked against quadrature in the tests.)"""
     smin, smax = min(sx, sy), max(sx, sy)
+    v = (xm / sx) ** 2 + (ym / sy) ** 2
+    if v > 1e6:
+        return False, f"miss {math.sqrt(v):.0f} sigma out: the series is not needed"
     if R > 0.2 * smin:
         return False, f"hard-body radius {R:g} m exceeds 0.2 x the smaller sigma {smin:.1f} m"
     if smax / smin > 20:

@@ -17,7 +17,7 @@ from scipy import stats
 from .pc import MonteCarloPc, wilson
 
 PATH_MC_SAMPLES = 50_000        # first batch; Wilson 99 % interval reported with every estimate
-PATH_MC_MAX_SAMPLES = 1_600_000 # sampling doubles up to this while a threshold is unresolved
+PATH_MC_MAX_SAMPLES = 400_000   # sampling doubles up to this while a threshold is unresolved
 BOUND_FLOOR = 1e-30             # pc_path_upper_bound never goes below this (tail underflow)
 REACH_SIGMA = 6.0               # segments farther than this many sigma (+ HBR) cannot be hit
 

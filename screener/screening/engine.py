@@ -12,7 +12,7 @@ from __future__ import annotations
 import dataclasses
 import math
 import time
-from concurrent.futures import ProcessPoolExecutor, as_completed
+from concurrent.futures import as_completed
 from typing import Callable, Sequence
 
 import numpy as np
@@ -85,12 +85,34 @@ class Task:
     step_s: float
     all_vs_all: bool
     last_span: bool
+    # object id -> seconds from the window start from which its states are not used (it
+    # re-entered earlier in the window, maybe in another task's span)
+    cutoff_s: dict[str, float] = dataclasses.field(default_factory=dict)
+
+
+@dataclasses.dataclass(frozen=True)
+class Unusable:
+    """What made an object's states unusable, merged over every task of a screening."""
+    code: int             # the first bad sample's code (propagation.codes)
+    first_bad_s: float    # seconds from the window start
+    bad_s: float          # time not screened: bad samples x the grid step
+
+    def merge(self, other: "Unusable") -> "Unusable":
+        first = self if self.first_bad_s <= other.first_bad_s else other
+        return Unusable(first.code, first.first_bad_s, self.bad_s + other.bad_s)
+
+    def describe(self, jd0: float, fr0: float, window_s: float) -> str:
+        from ..timeutil import iso_z, jd_to_datetime
+
+        when = iso_z(jd_to_datetime(jd0, fr0 + self.first_bad_s / 86400.0), 0)
+        share = min(1.0, self.bad_s / window_s)
+        return f"{codes.describe(self.code)} from {when}; {share:.0%} of the window not screened"
 
 
 @dataclasses.dataclass
 class TaskResult:
     encounters: list[Encounter]
-    unusable: dict[str, str]
+    unusable: dict[str, Unusable]
     stats: dict[str, float]
 
 
@@ -123,13 +145,16 @@ def run_task(task: Task) -> TaskResult:
     t = _grid(task.t0_s, task.t1_s, task.step_s)
     h = t[1] - t[0]
     r, v, code = pop.states(task.jd0, task.fr0, t)
+    cutoff = _apply_decay(pop, t, code, task.cutoff_s)
     usable = code == codes.OK
-    stats = {"objects": len(pop), "grid_points": len(t), "propagate_s": time.perf_counter() - t_start}
+    stats = {"objects": len(pop), "grid_points": len(t), "propagate_s": time.perf_counter() - t_start,
+             "t0_s": task.t0_s, "t1_s": task.t1_s}
     unusable = {}
     for k in np.nonzero(~usable.all(axis=1))[0]:
-        first = int(code[k][code[k] != 0][0])
-        frac = 1.0 - usable[k].mean()
-        unusable[pop.ids[k]] = f"{codes.describe(first)} ({frac:.0%} of samples in this span)"
+        bad = np.nonzero(code[k] != codes.OK)[0]
+        # each sample stands for one grid step (the span's end sample belongs to the next span)
+        n_bad = len(bad) - (1 if bad[-1] == len(t) - 1 and not task.last_span else 0)
+        unusable[pop.ids[k]] = Unusable(int(code[k][bad[0]]), float(t[bad[0]]), n_bad * h)
     reach = task.volume.bounding_radius_km + INTERP_MARGIN_KM
     row_of = np.arange(len(pop))
     brackets = []
@@ -169,6 +194,8 @@ def run_task(task: Task) -> TaskResult:
         tca = solve_tca(pop, b, task.jd0, task.fr0, 0.0, task.window_s)
         if tca is None:
             continue
+        if tca >= min(cutoff.get(pop.ids[b.i], math.inf), cutoff.get(pop.ids[b.j], math.inf)):
+            continue          # after one of the two re-entered: not a state to trust
         if not (task.t0_s <= tca < task.t1_s or (task.last_span and tca <= task.t1_s)):
             continue
         e = make_encounter(pop, b.i, b.j, tca, task.jd0, task.fr0)
@@ -182,6 +209,50 @@ def run_task(task: Task) -> TaskResult:
         out.append(e)
     stats["refine_s"] = time.perf_counter() - t_ref
     return TaskResult(_dedupe(out), unusable, stats)
+
+
+# SGP4's decay codes and our re-entry gate: once one is seen, nothing later is used
+DECAY_CODES = (1, 6, codes.BELOW_100_KM)
+DECAY_PERIGEE_KM = 400.0      # only objects with a perigee below this altitude are pre-checked
+DECAY_PROBE_STEP_S = 60.0
+
+
+def _apply_decay(pop: Population, t: np.ndarray, code: np.ndarray,
+                 cutoff_s: dict[str, float]) -> dict[str, float]:
+    """Mark, in place, every sample at or after an object's re-entry as unusable: from the
+    task's own first decay sample, and from the window-wide cutoff found by plan_tasks.
+    Returns the cutoff per object id (seconds from the window start)."""
+    out = dict(cutoff_s)
+    for k, oid in enumerate(pop.ids):
+        if oid in cutoff_s:
+            late = t >= cutoff_s[oid]
+            code[k][late & (code[k] == codes.OK)] = codes.BELOW_100_KM
+        hit = np.nonzero(np.isin(code[k], DECAY_CODES))[0]
+        if len(hit):
+            first = hit[0]
+            code[k][first:][code[k][first:] == codes.OK] = code[k][first]
+            out[oid] = min(out.get(oid, math.inf), float(t[first]))
+    return out
+
+
+def decay_cutoffs(catalog: Sequence[ElementSet], jd0: float, fr0: float,
+                  duration_s: float) -> dict[str, float]:
+    """First re-entry time in the window (s) of each low-perigee object that re-enters: a
+    cheap whole-window probe, so that every task ignores it from then on."""
+    from ..propagation.sgp4_batch import Sgp4Batch
+    from ..constants import RE_WGS72_KM
+
+    low = [r for r in catalog if r.orbit().perigee_radius_km - RE_WGS72_KM < DECAY_PERIGEE_KM]
+    if not low:
+        return {}
+    t = _grid(0.0, duration_s, DECAY_PROBE_STEP_S)
+    _, _, code = Sgp4Batch(low).states(jd0, fr0, t)
+    out = {}
+    for rec, c in zip(low, code):
+        hit = np.nonzero(np.isin(c, DECAY_CODES))[0]
+        if len(hit):
+            out[rec.catalog_id] = float(t[hit[0]])
+    return out
 
 
 def _bounds(rec: ElementSet, task: Task):
@@ -230,13 +301,17 @@ def plan_tasks(req: ScreeningRequest, spans: int | None = None) -> list[Task]:
         survivors = [s for s, k in zip(req.catalog, keep) if k]
         chunks = [survivors[a:a + MAX_SECONDARIES_PER_TASK]
                   for a in range(0, len(survivors), MAX_SECONDARIES_PER_TASK)] or [[]]
+    cut = decay_cutoffs(list(req.primaries) + [s for c in chunks for s in c], req.jd0, req.fr0,
+                        req.duration_s)
     tasks = []
     for chunk in chunks:
+        ids = {r.catalog_id for r in chunk} | {r.catalog_id for r in req.primaries}
+        mine = {k: v for k, v in cut.items() if k in ids}
         for a, b in zip(edges[:-1], edges[1:]):
             tasks.append(Task(list(req.primaries), list(req.primary_oems),
                               list(chunk), req.jd0, req.fr0, float(a), float(b),
                               req.duration_s, req.volume, req.step_s, req.all_vs_all,
-                              bool(b == edges[-1])))
+                              bool(b == edges[-1]), mine))
     return tasks
 
 
@@ -261,9 +336,9 @@ def screen(req: ScreeningRequest, progress: Progress | None = None, cancel=None,
     else:
         own = executor is None
         if own:
-            import multiprocessing as mp
+            from ..workers import spawn_pool
 
-            executor = ProcessPoolExecutor(max_workers=req.workers, mp_context=mp.get_context("spawn"))
+            executor = spawn_pool(req.workers)
         try:
             futures = [executor.submit(run_task, t) for t in tasks]
             for n, fut in enumerate(as_completed(futures), start=1):
@@ -283,10 +358,16 @@ def gather(req: ScreeningRequest, results: Sequence[TaskResult], wall_s: float) 
     encs = _dedupe([e for r in results for e in r.encounters])
     encs.sort(key=lambda e: e.tca_s)
     fill_altitudes(encs)
-    unusable: dict[str, str] = {}
+    # one entry per object and time span (a primary is in every chunk of secondaries of a
+    # span and must count once), then merged over the spans
+    per_span: dict[tuple[str, float], Unusable] = {}
     for r in results:
-        for k, why in r.unusable.items():
-            unusable.setdefault(k, why)
+        for k, u in r.unusable.items():
+            per_span.setdefault((k, r.stats.get("t0_s", 0.0)), u)
+    merged: dict[str, Unusable] = {}
+    for (k, _span), u in per_span.items():
+        merged[k] = merged[k].merge(u) if k in merged else u
+    unusable = {k: u.describe(req.jd0, req.fr0, req.duration_s) for k, u in sorted(merged.items())}
     stats = {"tasks": len(results), "wall_s": wall_s}
     for key in ("candidates", "brackets"):
         stats[key] = sum(r.stats.get(key, 0) for r in results)

@@ -37,6 +37,7 @@ class ScreenerApp(App):
         self.config_path = config_path
         self._now = now or time.time
         self._store = None
+        self.store_problem: str | None = None
         if light:
             self.theme = "textual-light"
 
@@ -96,7 +97,8 @@ class ScreenerApp(App):
             try:
                 self._store = Store(self.store_path, create=False)
             except ScreenerError as exc:
-                self.notify(str(exc), severity="error")
+                self.store_problem = str(exc).split(": ", 1)[-1]
+                self.notify(str(exc), severity="error", markup=False)
                 return None
         return self._store
 
@@ -121,7 +123,7 @@ class ScreenerApp(App):
         try:
             return load_config(path)
         except ScreenerError as exc:
-            self.notify(str(exc), severity="error", timeout=10)
+            self.notify(str(exc), severity="error", timeout=10, markup=False)
             return None
 
     def export_cdm(self, encounter_id: int) -> str | None:
@@ -137,9 +139,9 @@ class ScreenerApp(App):
             man = {k: v.get("maneuverable") for k, v in info.config.get("members", {}).items()}
             path = write_event_cdm(folder, d, man)
         except OSError as exc:
-            self.notify(f"export failed: {exc.strerror}", severity="error")
+            self.notify(f"export failed: {exc.strerror}", severity="error", markup=False)
             return None
-        self.notify(f"CDM written: {path}", timeout=8)
+        self.notify(f"CDM written: {path}", timeout=8, markup=False)
         self.last_export = path
         return path
 

@@ -104,10 +104,10 @@ class EventScreen(Screen):
         self.tca_unix_s = 0.0
 
     def compose(self) -> ComposeResult:
-        yield Static("", id="event-title")
+        yield Static("", id="event-title", markup=False)
         with VerticalScroll(id="event-body"):
-            yield Static("", id="event-facts")
-            yield Static("", id="event-plot")
+            yield Static("", id="event-facts", markup=False)
+            yield Static("", id="event-plot", markup=False)
         yield CautionBar()
         yield Footer()
 
@@ -171,7 +171,7 @@ class EventScreen(Screen):
                             d["tca"], d["miss_km"], d["relative_speed_km_s"], d.get("pc") or 0.0,
                             d.get("attention", "?"), d.get("covariance_source", "?"))
         self.app.copy_to_clipboard(line)
-        self.notify(f"copied: {line}", timeout=6)
+        self.notify(f"copied: {line}", timeout=6, markup=False)
 
     def action_help(self) -> None:
         from .help import HelpScreen

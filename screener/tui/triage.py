@@ -3,10 +3,10 @@ starts background screenings; exports and copies the selected event."""
 
 from __future__ import annotations
 
-import multiprocessing as mp
+import os
 import threading
-from concurrent.futures import ProcessPoolExecutor
 
+from rich.text import Text
 from textual import on, work
 from textual.app import ComposeResult
 from textual.binding import Binding
@@ -15,6 +15,7 @@ from textual.widgets import Footer, Input, Static
 
 from ..risk.attention import LEVELS
 from ..store import queries
+from ..workers import spawn_pool
 from .encounter_list import ColumnHeader, EncounterList
 from .model import RunView, summary_line
 from .widgets import CautionBar
@@ -52,12 +53,12 @@ class TriageScreen(Screen):
         self._cancel: threading.Event | None = None
 
     def compose(self) -> ComposeResult:
-        yield Static("", id="run-line")
-        yield Static("", id="filter-line")
+        yield Static("", id="run-line", markup=False)
+        yield Static("", id="filter-line", markup=False)
         yield Input(placeholder="search ids and names; Enter or Esc returns to the list", id="search")
         yield ColumnHeader(id="columns")
         yield EncounterList(id="encounters")
-        yield Static("", id="status")
+        yield Static("", id="status", markup=False)
         yield CautionBar()
         yield Footer()
 
@@ -76,9 +77,13 @@ class TriageScreen(Screen):
         if store is None:
             self.run_info, self.model = None, RunView([], self.app.now_unix_s())
             lst.set_model(self.model, self.app.now_unix_s())
-            self.query_one("#run-line", Static).update(
-                f"No store at {self.app.store_path}. Start a screening with n (needs --config), or "
-                f"run `screener run --config FILE`.")
+            if os.path.exists(self.app.store_path):
+                text = (f"{self.app.store_path} is not a usable screener store "
+                        f"({self.app.store_problem or 'unreadable'}). Give another with --store.")
+            else:
+                text = (f"No store at {self.app.store_path}. Start a screening with n (needs "
+                        f"--config), or run `screener run --config FILE`.")
+            self.query_one("#run-line", Static).update(Text(text))
             self._update_filter_line()
             return
         info = queries.run(store, run_id)
@@ -193,7 +198,7 @@ class TriageScreen(Screen):
             return
         line = one_line(r)
         self.app.copy_to_clipboard(line)
-        self.notify(f"copied: {line}", timeout=6)
+        self.notify(f"copied: {line}", timeout=6, markup=False)
 
     # ----- background screening
     def action_new_run(self) -> None:
@@ -230,7 +235,7 @@ class TriageScreen(Screen):
 
         # The engine always runs in worker processes here, even for workers = 1: SGP4's array
         # propagation holds the GIL, and in this process it would stall the UI.
-        pool = ProcessPoolExecutor(max_workers=max(1, cfg.workers), mp_context=mp.get_context("spawn"))
+        pool = spawn_pool(max(1, cfg.workers))
         try:
             store = Store(self.app.store_path)
             try:
@@ -251,7 +256,7 @@ class TriageScreen(Screen):
     def _finished(self, run_id: int | None, text: str) -> None:
         self._cancel = None
         self._status(text)
-        self.notify(text, severity="information" if run_id else "warning")
+        self.notify(text, severity="information" if run_id else "warning", markup=False)
         if run_id is not None:
             self.app.close_store()
             self.load_run(run_id)
