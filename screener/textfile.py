@@ -11,7 +11,8 @@ from __future__ import annotations
 import os
 import stat
 
-from .errors import ParseError
+from .environment import env_float
+from .errors import ParseError, ScreenerError
 
 ENV_MAX_INPUT_MB = "SCREENER_MAX_INPUT_MB"
 DEFAULT_MAX_INPUT_MB = 1024.0      # one input file; 200,000 TLEs are about 33 MB
@@ -24,13 +25,10 @@ _CONTROL = {c: "?" for c in (*range(0x00, 0x09), 0x0B, 0x0C, *range(0x0E, 0x20),
 
 
 def max_input_bytes() -> int:
-    text = os.environ.get(ENV_MAX_INPUT_MB, "")
     try:
-        mb = float(text) if text else DEFAULT_MAX_INPUT_MB
-    except ValueError:
-        mb = -1.0
-    if not (0.0 < mb <= 1e6):
-        raise ParseError(f"{ENV_MAX_INPUT_MB}={text!r}: give a size in MB, above 0", "<environment>")
+        mb = env_float(ENV_MAX_INPUT_MB, DEFAULT_MAX_INPUT_MB, 0.001, 1e6, "a size in MB")
+    except ScreenerError as exc:
+        raise ParseError(str(exc), "<environment>") from None
     return int(mb * 1024 * 1024)
 
 

@@ -23,3 +23,13 @@ def store(demo_store_path, tmp_path):
     a.close()
     b.close()
     return str(dst)
+
+
+# Inputs tried by each fuzzing test (filled by the tests, printed at the end of the run)
+FUZZ_COUNTS: dict[str, int] = {}
+
+
+def pytest_terminal_summary(terminalreporter):
+    if FUZZ_COUNTS:
+        terminalreporter.write_line("fuzzing: " + ", ".join(
+            f"{k} {v} inputs" for k, v in sorted(FUZZ_COUNTS.items())))

@@ -59,3 +59,39 @@ def demo_store(folder) -> str:
                      "--no-exports")
         assert p.returncode == 0, p.stderr
     return store
+
+
+def store_counts(path):
+    """Row counts of the run store's main tables (runs, encounters, events, elsets)."""
+    import sqlite3
+
+    c = sqlite3.connect(path)
+    try:
+        return tuple(c.execute(f"SELECT count(*) FROM {t}").fetchone()[0]
+                     for t in ("runs", "encounters", "events", "elsets"))
+    finally:
+        c.close()
+
+
+def process_tree(pid):
+    """Every descendant process id of pid (from ps)."""
+    out = subprocess.run(["ps", "-e", "-o", "pid=,ppid="], capture_output=True, text=True).stdout
+    kids = {}
+    for line in out.splitlines():
+        a, b = (int(x) for x in line.split())
+        kids.setdefault(b, []).append(a)
+    seen, todo = [], [pid]
+    while todo:
+        for k in kids.get(todo.pop(), []):
+            seen.append(k)
+            todo.append(k)
+    return seen
+
+
+def alive(pid) -> bool:
+    """Running (not gone, not a zombie)."""
+    try:
+        with open(f"/proc/{pid}/stat") as fh:
+            return fh.read().rsplit(")", 1)[1].split()[0] != "Z"
+    except FileNotFoundError:
+        return False

@@ -56,3 +56,27 @@ def test_strict_mode_names_file_and_line(tmp_path):
                    "2 00005  34.2682 348.7242 1859667 331.7664  19.3264 10.82419157413667\n")
     p = run("screen", "--catalog", str(bad), "--start", "2000-06-28T00:00:00Z", "--strict")
     assert p.returncode == 2 and f"{bad}:1:69" in p.stderr and "checksum" in p.stderr
+
+
+@pytest.mark.parametrize("args,needle", [
+    (["--days", "inf"], "--days inf is outside"), (["--days", "1e9"], "--days 1e+09 is outside"),
+    (["--days", "nan"], "--days nan is outside"), (["--workers", "0"], "--workers 0 is outside"),
+    (["--workers", "-3"], "--workers -3 is outside"), (["--max-age-days", "-1"], "--max-age-days -1"),
+    (["--radius-km", "0"], "--radius-km 0 is outside"), (["--hbr-m", "-5"], "--hbr-m -5"),
+])
+def test_every_numeric_option_is_range_checked(args, needle):
+    """Each bad value: exit 2, one line, no traceback, nothing attempted (no memory plan for a
+    billion-day window)."""
+    p = run("screen", "--catalog", f"{DEMO}/catalog.tle", "--start", "2026-12-02T00:00:00Z",
+                 *args)
+    assert p.returncode == 2 and "Traceback" not in p.stderr
+    lines = p.stderr.strip().splitlines()
+    assert len(lines) == 1 and needle in lines[0], p.stderr
+
+
+def test_run_with_config_refuses_one_off_options(tmp_path):
+    from .nightly import write_config
+
+    cfg = write_config(tmp_path / "c.toml", days=0.3)
+    p = run("run", "--config", cfg, "--store", str(tmp_path / "s.sqlite"), "--days", "9")
+    assert p.returncode == 2 and "--days" in p.stderr and "configuration" in p.stderr

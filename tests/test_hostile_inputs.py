@@ -10,7 +10,6 @@ injection (a leading apostrophe).
 
 from __future__ import annotations
 
-import csv
 import json
 import os
 import random
@@ -24,7 +23,7 @@ import time
 import pytest
 
 from . import hostile
-from .nightly import DEMO, screener, write_config
+from .nightly import DEMO, alive, process_tree, screener, write_config
 
 START = "2026-12-02T00:00:00Z"
 
@@ -273,28 +272,6 @@ def test_decay_mid_window_is_reported_with_object_time_and_share(tmp_path):
     assert "88001: " in p.stdout and "not screened" in p.stdout
 
 
-def _tree(pid):
-    out = subprocess.run(["ps", "-e", "-o", "pid=,ppid="], capture_output=True, text=True).stdout
-    kids = {}
-    for ln in out.splitlines():
-        a, b = (int(x) for x in ln.split())
-        kids.setdefault(b, []).append(a)
-    seen, todo = [], [pid]
-    while todo:
-        for k in kids.get(todo.pop(), []):
-            seen.append(k)
-            todo.append(k)
-    return seen
-
-
-def _alive(pid):
-    try:
-        with open(f"/proc/{pid}/stat") as fh:
-            return fh.read().rsplit(")", 1)[1].split()[0] != "Z"
-    except FileNotFoundError:
-        return False
-
-
 def test_kill_9_loop_leaves_a_consistent_store_and_no_process(tmp_path):
     """20 runs killed with SIGKILL at seeded moments spread over a whole run (loading,
     screening, risk, commit): the store passes SQLite's integrity check, holds only whole
@@ -312,13 +289,13 @@ def test_kill_9_loop_leaves_a_consistent_store_and_no_process(tmp_path):
                                  "--store", str(store), "--quiet", "--no-exports"],
                                 stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL)
         time.sleep(rng.uniform(0.05, 1.1) * full_s)
-        family = _tree(proc.pid)
+        family = process_tree(proc.pid)
         proc.send_signal(signal.SIGKILL)
         proc.wait()
         t_end = time.monotonic() + 60
-        while any(_alive(q) for q in family) and time.monotonic() < t_end:
+        while any(alive(q) for q in family) and time.monotonic() < t_end:
             time.sleep(0.2)
-        assert not any(_alive(q) for q in family), f"kill {k}: a worker outlived its run"
+        assert not any(alive(q) for q in family), f"kill {k}: a worker outlived its run"
         c = sqlite3.connect(store)
         assert c.execute("PRAGMA integrity_check").fetchone()[0] == "ok"
         n_runs = c.execute("SELECT count(*) FROM runs").fetchone()[0]

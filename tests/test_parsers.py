@@ -173,9 +173,64 @@ def test_demo_catalog_round_trips_verbatim():
         assert r.to_tle() == r.tle_lines
 
 
+def _count(name):
+    from .conftest import FUZZ_COUNTS
+
+    FUZZ_COUNTS[name] = FUZZ_COUNTS.get(name, 0) + 1
+
+
+_ANY_FLOAT = st.one_of(st.floats(allow_nan=True, allow_infinity=True), st.integers(-10**30, 10**30),
+                       st.text(max_size=12))
+
+
+@settings(max_examples=300, deadline=None)
+@given(st.dictionaries(st.sampled_from(["MEAN_MOTION", "ECCENTRICITY", "INCLINATION", "RA_OF_ASC_NODE",
+                                        "ARG_OF_PERICENTER", "MEAN_ANOMALY", "BSTAR",
+                                        "MEAN_MOTION_DOT", "MEAN_MOTION_DDOT", "ELEMENT_SET_NO",
+                                        "REV_AT_EPOCH", "NORAD_CAT_ID", "OBJECT_NAME"]),
+                       _ANY_FLOAT, max_size=6))
+def test_omm_fields_of_any_value_give_a_finite_record_or_a_parse_error(changes):
+    """Hostile numbers (NaN, infinities, 1e308, huge integers, text) in any OMM keyword: the
+    reader yields a ParseError or a record whose every number is finite (CCSDS 502.0-B-3)."""
+    import json as _json
+    import math as _math
+
+    _count("OMM keyword values")
+    base = _json.load(open(os.path.join(DEMO, "fleet.json")))[0]
+    base.update(changes)
+    text = _json.dumps([base], allow_nan=True)
+    for item in iter_omm_json(text, "fuzz.json"):
+        if isinstance(item, ElementSet):
+            for f in ("mean_motion_rev_day", "eccentricity", "inclination_deg", "raan_deg",
+                      "arg_perigee_deg", "mean_anomaly_deg", "bstar_per_earth_radius",
+                      "ndot_rev_day2", "nddot_rev_day3"):
+                assert _math.isfinite(getattr(item, f)), f
+        else:
+            assert isinstance(item, ParseError)
+
+
+@settings(max_examples=150, deadline=None)
+@given(st.lists(st.tuples(st.sampled_from(["X", "Y", "Z", "X_DOT", "CR_R", "CT_T", "CN_N", "TCA",
+                                           "MISS_DISTANCE", "CREATION_DATE", "OBJECT", "REF_FRAME"]),
+                          _ANY_FLOAT), max_size=4))
+def test_cdm_with_any_values_is_read_or_refused(changes):
+    from .test_hostile_inputs import _cdm_text
+    from screener.risk import read_cdm
+
+    _count("CDM keyword values")
+    text = _cdm_text()
+    for key, value in changes:
+        text = text.replace(f"\n{key} ", f"\n{key} = {value}\n{key}_WAS ", 1)
+    try:
+        read_cdm("fuzz.cdm", text=text)
+    except ParseError:
+        pass
+
+
 @settings(max_examples=300, deadline=None)
 @given(st.binary(max_size=600))
 def test_any_bytes_yield_records_or_parse_errors(blob):
+    _count("bytes->all readers")
     text = blob.decode("utf-8", errors="replace")
     for reader in (iter_tle_text, iter_omm_kvn, iter_omm_xml, iter_omm_csv, iter_omm_json):
         for item in reader(text, "fuzz"):
@@ -189,6 +244,7 @@ def test_any_bytes_yield_records_or_parse_errors(blob):
 @settings(max_examples=150, deadline=None)
 @given(st.text(alphabet="0123456789 .-+U12AZ\n", max_size=300))
 def test_tle_like_text_yields_records_or_parse_errors(text):
+    _count("TLE-like text")
     for item in iter_tle_text(L1 + "\n" + text, "fuzz"):
         assert isinstance(item, (ElementSet, ParseError))
 

@@ -17,12 +17,11 @@ from __future__ import annotations
 
 import math
 
-import numpy as np
 import pytest
 from scipy import integrate, stats
 
 from screener.risk.pc import (chan_is_reliable, cumulative, in_dilution_region, pc_chan,
-                              pc_isotropic_exact, pc_max_isotropic, pc_max_line, pc_max_scaled,
+                              pc_isotropic_exact, pc_max_isotropic, pc_max_scaled,
                               pc_monte_carlo, pc_quadrature)
 
 # (xm, ym, sigma_x, sigma_y, R) in metres -> (exact Pc, Chan-series Pc), as published (text)

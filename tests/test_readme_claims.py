@@ -20,16 +20,7 @@ import time
 import numpy as np
 import pytest
 
-from .nightly import DEMO, screener, write_config
-
-
-def _store_counts(path):
-    c = sqlite3.connect(path)
-    try:
-        return tuple(c.execute(f"SELECT count(*) FROM {t}").fetchone()[0]
-                     for t in ("runs", "encounters", "events", "elsets"))
-    finally:
-        c.close()
+from .nightly import DEMO, alive, process_tree, screener, store_counts, write_config
 
 
 def test_ric_km_screening_keeps_only_points_inside_the_ellipsoid(tmp_path):
@@ -88,26 +79,10 @@ def _wait_line(proc, needle, timeout_s=300):
     raise AssertionError(f"never saw {needle!r}")
 
 
-def _descendants(pid):
-    out = subprocess.run(["ps", "-e", "-o", "pid=,ppid="], capture_output=True, text=True).stdout
-    kids = {}
-    for line in out.splitlines():
-        a, b = (int(x) for x in line.split())
-        kids.setdefault(b, []).append(a)
-    seen, todo = [], [pid]
-    while todo:
-        for k in kids.get(todo.pop(), []):
-            seen.append(k)
-            todo.append(k)
-    return seen
-
-
 def _gone(pids, timeout_s=120):
     t_end = time.monotonic() + timeout_s
     while time.monotonic() < t_end:
-        alive = [p for p in pids if os.path.exists(f"/proc/{p}") and
-                 "Z" not in open(f"/proc/{p}/stat").read().split(")")[-1].split()[0]]
-        if not alive:
+        if not any(alive(p) for p in pids):
             return True
         time.sleep(0.5)
     return False
@@ -125,7 +100,7 @@ def test_interrupt_with_two_workers(short_cfg, tmp_path, sig, code, ignored):
     proc = _start_run(short_cfg, store, pre)
     _wait_line(proc, "screening: started")
     time.sleep(1.0)                       # let the worker processes start
-    workers = _descendants(proc.pid)
+    workers = process_tree(proc.pid)
     proc.send_signal(sig)
     rc = proc.wait(timeout=120)
     err = proc.stderr.read()
@@ -135,7 +110,7 @@ def test_interrupt_with_two_workers(short_cfg, tmp_path, sig, code, ignored):
     assert "Traceback" not in err
     assert _gone(workers), "worker processes outlived the interrupted run"
     if store.exists():
-        assert _store_counts(store)[0] == 0
+        assert store_counts(store)[0] == 0
 
 
 def test_locked_store_is_exit_4_before_any_screening(tmp_path):
@@ -146,7 +121,6 @@ def test_locked_store_is_exit_4_before_any_screening(tmp_path):
     holder = sqlite3.connect(store, isolation_level=None)
     holder.execute("BEGIN IMMEDIATE")
     try:
-        t0 = time.monotonic()
         p = screener("run", "--config", cfg, "--store", str(store), "--quiet", "--no-exports",
                      env={"SCREENER_LOCK_WAIT_S": "1"})
         assert p.returncode == 4, p.stderr
@@ -155,7 +129,7 @@ def test_locked_store_is_exit_4_before_any_screening(tmp_path):
     finally:
         holder.execute("ROLLBACK")
         holder.close()
-    assert _store_counts(store)[0] == 1
+    assert store_counts(store)[0] == 1
 
 
 def test_unwritable_store_folder_is_exit_4(tmp_path):
@@ -181,7 +155,7 @@ def test_store_path_is_a_path_not_a_uri(tmp_path, name):
     p = screener("run", "--config", cfg, "--store", str(tmp_path / name), "--quiet", "--no-exports")
     assert p.returncode == 0, p.stderr
     assert (tmp_path / name).exists()
-    assert _store_counts(tmp_path / name)[0] == 1
+    assert store_counts(tmp_path / name)[0] == 1
     assert sorted(x.name for x in tmp_path.iterdir() if x.suffix == ".sqlite") == [name]
 
 

@@ -14,16 +14,7 @@ import time
 
 import pytest
 
-from .nightly import write_config
-
-
-def _counts(path):
-    c = sqlite3.connect(path)
-    try:
-        return tuple(c.execute(f"SELECT count(*) FROM {t}").fetchone()[0]
-                     for t in ("runs", "encounters", "events", "elsets"))
-    finally:
-        c.close()
+from .nightly import store_counts, write_config
 
 
 @pytest.fixture(scope="module")
@@ -77,12 +68,12 @@ def test_interrupted_run_leaves_the_store_consistent(base, tmp_path, hold, sig):
     cfg, src = base
     store = tmp_path / "s.sqlite"
     _copy_store(src, store)
-    before = _counts(store)
+    before = store_counts(store)
     proc = _start(cfg, store, hold)
     _wait_for(proc, f"screener-hold:{hold}" if hold else "screening: started")
     if hold and hold != "before-begin":
         # a concurrent reader during the open write transaction sees the old state
-        assert _counts(store) == before
+        assert store_counts(store) == before
     proc.send_signal(sig)
     rc = proc.wait(timeout=120)
     proc.stderr.close()
@@ -95,12 +86,12 @@ def test_interrupted_run_leaves_the_store_consistent(base, tmp_path, hold, sig):
     c = sqlite3.connect(store)
     assert c.execute("PRAGMA integrity_check").fetchone()[0] == "ok"
     c.close()
-    assert _counts(store) == before, "nothing of the interrupted run is stored, nothing lost"
+    assert store_counts(store) == before, "nothing of the interrupted run is stored, nothing lost"
     # and the store still takes the next run
     p = subprocess.run([sys.executable, "-m", "screener.cli.main", "run", "--config", cfg, "--store",
                         str(store), "--quiet"], capture_output=True, text=True, timeout=600)
     assert p.returncode == 0, p.stderr
-    assert _counts(store)[0] == before[0] + 1
+    assert store_counts(store)[0] == before[0] + 1
 
 
 def test_reader_sees_the_new_run_after_commit(base, tmp_path):

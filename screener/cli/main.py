@@ -31,7 +31,7 @@ def add_screen_args(p: argparse.ArgumentParser, required: bool = True) -> None:
     p.add_argument("--primaries", nargs="+", metavar="PATH",
                    help="own fleet: element sets or CCSDS OEM files; omit for all-vs-all")
     p.add_argument("--start", required=required, help="window start, ISO 8601 UTC (or 'today', 'now')")
-    p.add_argument("--days", type=float, default=3.0, help="window length in days (default 3)")
+    p.add_argument("--days", type=float, help="window length in days (default 3, at most 60)")
     vol = p.add_mutually_exclusive_group()
     vol.add_argument("--radius-km", type=float, help="spherical screening volume radius (default 5)")
     vol.add_argument("--ric-km", help="RIC ellipsoid half-sizes R,I,C in km")
@@ -39,23 +39,36 @@ def add_screen_args(p: argparse.ArgumentParser, required: bool = True) -> None:
                    "two 5 m circumscribing spheres)")
     p.add_argument("--json", metavar="PATH", help="write encounters as JSON")
     p.add_argument("--strict", action="store_true", help="stop at the first bad record")
-    p.add_argument("--max-age-days", type=float, default=7.0,
+    p.add_argument("--max-age-days", type=float,
                    help="flag element sets older than this at the start (default 7)")
-    p.add_argument("--workers", type=int, default=min(2, os.cpu_count() or 1),
-                   help="local processes (default: up to 2)")
+    p.add_argument("--workers", type=int, help="local processes (default: up to 2)")
     p.add_argument("--dask", metavar="ADDRESS", help="run the tasks on the Dask scheduler at "
                    "ADDRESS (tcp://host:port) instead of local processes")
     p.add_argument("--quiet", action="store_true", help="no summary or progress")
+
+
+# (option, attribute, lowest allowed, highest allowed): checked before anything runs
+RANGES = (("--days", "days", 1e-3, 60.0), ("--radius-km", "radius_km", 1e-3, 1000.0),
+          ("--hbr-m", "hbr_m", 1e-3, 1000.0), ("--max-age-days", "max_age_days", 1e-3, 3650.0),
+          ("--workers", "workers", 1, 256))
+ONE_OFF = ("days", "radius_km", "ric_km", "hbr_m", "max_age_days")
+
+
+def check_ranges(args) -> None:
+    """Every numeric option in its range (NaN and infinities refused): one line, exit 2."""
+    for flag, attr, lo, hi in RANGES:
+        x = getattr(args, attr, None)
+        if x is not None and not (lo <= x <= hi):
+            raise ScreenerError(f"{flag} {x:g} is outside {lo:g} .. {hi:g}")
 
 
 def config_from_args(args):
     from ..config import config_from_options
     from .load import parse_volume
 
-    if not (args.days > 0):
-        raise ScreenerError("--days must be positive")
-    if args.hbr_m is not None and not args.hbr_m > 0:
-        raise ScreenerError("--hbr-m must be positive")
+    args.days = 3.0 if args.days is None else args.days
+    args.max_age_days = 7.0 if args.max_age_days is None else args.max_age_days
+    args.workers = min(2, os.cpu_count() or 1) if args.workers is None else args.workers
     if args.start not in ("today", "now"):
         from ..timeutil import parse_start
 
@@ -168,6 +181,7 @@ def main(argv=None) -> int:
     except ValueError:          # not the main thread (embedded use): keep the defaults
         pass
     try:
+        check_ranges(args)
         return args.func(args)
     except StoreError as exc:
         print(f"screener: store error: {exc}", file=sys.stderr)

@@ -8,7 +8,7 @@ import json
 def add_risk_parser(sub) -> None:
     p = sub.add_parser("risk", help="recompute Pc for a received CCSDS CDM")
     p.add_argument("--cdm", required=True, metavar="PATH", help="CCSDS CDM (KVN)")
-    p.add_argument("--hbr-m", type=float, default=None, help="hard-body radius, m (default 20)")
+    p.add_argument("--hbr-m", type=float, default=None, help="hard-body radius, m (default 10: two 5 m spheres, as everywhere)")
     p.add_argument("--json", metavar="OUT", help="write the result as JSON")
     p.set_defaults(func=cmd_risk)
 
@@ -20,7 +20,10 @@ def cmd_risk(args) -> int:
     from ..risk.assess import assess_cdm
 
     cdm = read_cdm(args.cdm)
-    hbr = 20.0 if args.hbr_m is None else args.hbr_m
+    from ..risk.attach import DEFAULT_OBJECT_RADIUS_M
+
+    # one default everywhere: two 5 m circumscribing spheres
+    hbr = 2 * DEFAULT_OBJECT_RADIUS_M if args.hbr_m is None else args.hbr_m
     if not hbr > 0:
         raise ScreenerError("--hbr-m must be positive")
     out = assess_cdm(cdm, hbr)

@@ -71,16 +71,23 @@ def cmd_run(args) -> int:
     from ..risk.attention import ACT
     from ..pipeline import execute
     from .load import warn
-    from .main import EXIT_ACT, EXIT_OK, config_from_args, write_result_json
+    from .main import EXIT_ACT, EXIT_OK, ONE_OFF, config_from_args, write_result_json
     from .progress import make_progress
     from .summary import render
 
     if args.config:
         if args.catalog or args.primaries or args.start:
             raise ScreenerError("give either --config or the one-off options (--catalog, --start, ...), not both")
+        given = [a for a in ONE_OFF if getattr(args, a, None) is not None] + (["strict"] if args.strict else [])
+        if given:
+            flags = ", ".join("--" + a.replace("_", "-") for a in given)
+            raise ScreenerError(f"{flags}: set in the configuration file with --config (only "
+                                f"--workers and --dask override it)")
         cfg = load_config(args.config)
         if args.dask:
             cfg.dask_scheduler = args.dask
+        if args.workers is not None:
+            cfg.workers = args.workers
     else:
         if not args.catalog or not args.start:
             raise ScreenerError("run needs --config PATH, or --catalog and --start for a one-off run")

@@ -92,7 +92,7 @@ def _path_pc(e: Encounter, est, out: dict, hbr_m: float, thresholds: Thresholds)
     """Slow/long encounter: Pc by Monte Carlo along the relative path replaces the 2-D Pc
     (which is kept as pc_2d)."""
     from .encounter_plane import ric_to_inertial_cov
-    from .pc_path import pc_path_resolved
+    from .pc_path import PATH_MC_SAMPLES, pc_path_resolved
 
     c = (ric_to_inertial_cov(est[0].cov_rtn_km2, e.primary_r_km, e.primary_v_km_s)
          + ric_to_inertial_cov(est[1].cov_rtn_km2, e.secondary_r_km, e.secondary_v_km_s))
@@ -103,8 +103,11 @@ def _path_pc(e: Encounter, est, out: dict, hbr_m: float, thresholds: Thresholds)
     out["log10_pc"] = float(np.log10(mc.pc)) if mc.pc > 0 else None
     out["pc_mc_lo99"], out["pc_mc_hi99"] = mc.lo99, mc.hi99
     span = f"+-{e.profile_half_s:.0f} s"
+    how = ("" if mc.samples <= PATH_MC_SAMPLES else
+           "; importance-sampled around the hard-body tube after the first batch")
     out["pc_method"] = (f"Monte Carlo along the relative path ({span}, {mc.samples:,} samples, "
-                        f"99 % interval {mc.lo99:.1e} to {mc.hi99:.1e}; errors held fixed over the path)")
+                        f"99 % interval {mc.lo99:.1e} to {mc.hi99:.1e}; errors held fixed over the "
+                        f"path{how})")
     out["pc_mc_resolved"] = resolved
     if resolved:
         level, reason = thresholds.level(out["pc"], out["pc_max"], out["dilution_region"])

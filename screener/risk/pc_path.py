@@ -10,9 +10,11 @@ nothing as long as the true path is smooth between samples.
 
 from __future__ import annotations
 
+import dataclasses
+
 import numpy as np
 
-from scipy import stats
+from scipy import special, stats
 
 from .pc import MonteCarloPc, wilson
 
@@ -22,41 +24,120 @@ BOUND_FLOOR = 1e-30             # pc_path_upper_bound never goes below this (tai
 REACH_SIGMA = 6.0               # segments farther than this many sigma (+ HBR) cannot be hit
 
 
+@dataclasses.dataclass(frozen=True)
+class _Path:
+    """The path segments that can be hit, with the products the hit test reuses."""
+    a: np.ndarray        # (s, 3) segment starts, km
+    seg: np.ndarray      # (s, 3) segment vectors
+    seg2: np.ndarray     # (s,) squared lengths
+    a_seg: np.ndarray    # (s,) a . seg
+    a2: np.ndarray       # (s,) |a|^2
+
+    @classmethod
+    def near(cls, path_km, cov_km2, hbr_km) -> "_Path":
+        p = np.asarray(path_km, float)
+        a, b = p[:-1], p[1:]
+        seg = b - a
+        seg2 = np.maximum(np.einsum("ij,ij->i", seg, seg), 1e-30)
+        reach = REACH_SIGMA * float(np.sqrt(np.linalg.eigvalsh(cov_km2).max())) + hbr_km
+        u0 = np.clip(np.einsum("sk,sk->s", -a, seg) / seg2, 0.0, 1.0)
+        keep = np.linalg.norm(a + u0[:, None] * seg, axis=1) <= reach
+        a, seg, seg2 = a[keep], seg[keep], seg2[keep]
+        return cls(a, seg, seg2, np.einsum("sk,sk->s", a, seg), np.einsum("sk,sk->s", a, a))
+
+    def hits(self, delta: np.ndarray, hbr_km: float) -> np.ndarray:
+        """Which offsets (n, 3) bring the shifted path within hbr of the origin."""
+        if not len(self.a):
+            return np.zeros(len(delta), bool)
+        # q = -delta - a (the origin seen from the shifted segment start), all as (n, s) via
+        # two matrix products: q.seg = -(delta.seg) - a.seg, |q|^2 = |delta|^2 + 2 delta.a + |a|^2
+        d0, d1, d2_ = delta[:, 0:1], delta[:, 1:2], delta[:, 2:3]
+        a, seg = self.a, self.seg
+        q_seg = -(d0 * seg[:, 0] + d1 * seg[:, 1] + d2_ * seg[:, 2]) - self.a_seg
+        q2 = (d0 * d0 + d1 * d1 + d2_ * d2_) + 2.0 * (d0 * a[:, 0] + d1 * a[:, 1] + d2_ * a[:, 2]) + self.a2
+        u = np.clip(q_seg / self.seg2, 0.0, 1.0)
+        d2 = q2 - 2.0 * u * q_seg + u * u * self.seg2
+        return (d2 <= hbr_km * hbr_km).any(axis=1)
+
+
 def pc_path_monte_carlo(path_km: np.ndarray, cov_km2: np.ndarray, hbr_km: float,
                         samples: int = PATH_MC_SAMPLES, seed: int = 1,
                         chunk: int = 8_192) -> MonteCarloPc:
-    """path_km: (m, 3) relative positions (secondary - primary) around TCA, inertial, km;
-    cov_km2: 3x3 combined position covariance, same frame."""
-    p = np.asarray(path_km, float)
-    a, b = p[:-1], p[1:]
-    seg = b - a
-    seg2 = np.maximum(np.einsum("ij,ij->i", seg, seg), 1e-30)
+    """Plain Monte Carlo.  path_km: (m, 3) relative positions (secondary - primary) around
+    TCA, inertial, km; cov_km2: 3x3 combined position covariance, same frame."""
     cov = np.asarray(cov_km2, float)
-    reach = REACH_SIGMA * float(np.sqrt(np.linalg.eigvalsh(cov).max())) + hbr_km
-    u0 = np.clip(np.einsum("sk,sk->s", -a, seg) / seg2, 0.0, 1.0)
-    near = np.linalg.norm(a + u0[:, None] * seg, axis=1) <= reach
-    a, seg, seg2 = a[near], seg[near], seg2[near]
-    if not len(a):
+    path = _Path.near(path_km, cov, hbr_km)
+    if not len(path.a):
         return wilson(0, samples)
     rng = np.random.default_rng(seed)
     L = np.linalg.cholesky(cov + 1e-18 * np.eye(3))
     hits, done = 0, 0
-    r2 = hbr_km * hbr_km
-    a_seg = np.einsum("sk,sk->s", a, seg)          # a . seg
-    a2 = np.einsum("sk,sk->s", a, a)               # |a|^2
     while done < samples:
         n = min(chunk, samples - done)
         delta = rng.standard_normal((n, 3)) @ L.T                 # (n, 3)
-        # q = -delta - a (the origin seen from the shifted segment start), all as (n, s) via
-        # two matrix products: q.seg = -(delta.seg) - a.seg, |q|^2 = |delta|^2 + 2 delta.a + |a|^2
-        d0, d1, d2_ = delta[:, 0:1], delta[:, 1:2], delta[:, 2:3]
-        q_seg = -(d0 * seg[:, 0] + d1 * seg[:, 1] + d2_ * seg[:, 2]) - a_seg
-        q2 = (d0 * d0 + d1 * d1 + d2_ * d2_) + 2.0 * (d0 * a[:, 0] + d1 * a[:, 1] + d2_ * a[:, 2]) + a2
-        u = np.clip(q_seg / seg2, 0.0, 1.0)
-        d2 = q2 - 2.0 * u * q_seg + u * u * seg2
-        hits += int(np.count_nonzero((d2 <= r2).any(axis=1)))
+        hits += int(np.count_nonzero(path.hits(delta, hbr_km)))
         done += n
     return wilson(hits, samples)
+
+
+IS_DEFENSIVE = 0.2      # share of importance samples drawn from the covariance itself
+IS_FIRST_BATCH = 10_000 # importance samples in the first batch (each later one doubles)
+
+
+def pc_path_importance(path_km: np.ndarray, cov_km2: np.ndarray, hbr_km: float,
+                       samples: int, seed: int = 2, chunk: int = 8_192) -> MonteCarloPc:
+    """Importance sampling around the hard-body tube: offsets drawn from a mixture with one
+    Gaussian per path segment, centred on -(segment midpoint), spread half the segment's
+    length along it and the hard-body radius across it, each weighted by the covariance's
+    density there; plus a defensive share drawn from the covariance itself.  Each hit counts
+    p/q (unbiased); the 99 % interval is the normal one on the weighted mean."""
+    cov = np.asarray(cov_km2, float)
+    path = _Path.near(path_km, cov, hbr_km)
+    if not len(path.a):
+        return MonteCarloPc(0.0, 0.0, 0.0, samples)
+    centres = -(path.a + 0.5 * path.seg)
+    length = np.sqrt(path.seg2)
+    axis = path.seg / length[:, None]
+    s_along = np.maximum(0.5 * length, hbr_km)
+    s_across = hbr_km
+    inv = np.linalg.inv(cov)
+    logdet = float(np.linalg.slogdet(cov)[1])
+
+    def log_p(x):
+        return -0.5 * np.einsum("ni,ij,nj->n", x, inv, x) - 0.5 * (3 * np.log(2 * np.pi) + logdet)
+
+    lw = log_p(centres)
+    pi = np.exp(lw - lw.max())
+    pi = np.maximum(pi / pi.sum(), 1e-300)
+    pi /= pi.sum()
+    log_comp_norm = np.log(pi) - 1.5 * np.log(2 * np.pi) - np.log(s_along) - 2 * np.log(s_across)
+    rng = np.random.default_rng(seed)
+    L = np.linalg.cholesky(cov + 1e-18 * np.eye(3))
+    total, total2, done = 0.0, 0.0, 0
+    while done < samples:
+        n = min(chunk, samples - done)
+        k = rng.choice(len(centres), size=n, p=pi)
+        z = rng.standard_normal((n, 3))
+        x = centres[k] + s_across * z
+        # replace the along-axis part of the spread: s_across -> s_along for that direction
+        x += ((s_along[k] - s_across) * np.einsum("ni,ni->n", z, axis[k]))[:, None] * axis[k]
+        prior = rng.random(n) < IS_DEFENSIVE
+        x[prior] = rng.standard_normal((int(prior.sum()), 3)) @ L.T
+        dx = x[:, None, :] - centres[None, :, :]                      # (n, K, 3)
+        u = np.einsum("nki,ki->nk", dx, axis)
+        perp2 = np.einsum("nki,nki->nk", dx, dx) - u * u
+        log_mix = special.logsumexp(log_comp_norm[None, :] - 0.5 * (u / s_along[None, :]) ** 2
+                                    - 0.5 * perp2 / s_across ** 2, axis=1)
+        lp = log_p(x)
+        log_q = np.logaddexp(np.log(IS_DEFENSIVE) + lp, np.log1p(-IS_DEFENSIVE) + log_mix)
+        w = np.where(path.hits(x, hbr_km), np.exp(lp - log_q), 0.0)
+        total += float(w.sum())
+        total2 += float((w * w).sum())
+        done += n
+    mean = total / samples
+    sd = np.sqrt(max(total2 / samples - mean * mean, 0.0) / samples)
+    z99 = 2.5758293035489004   # two-sided 99 %
+    return MonteCarloPc(mean, max(0.0, mean - z99 * sd), mean + z99 * sd, samples)
 
 
 def pc_path_upper_bound(path_km: np.ndarray, cov_km2: np.ndarray, hbr_km: float) -> float:
@@ -96,21 +177,25 @@ def pc_path_resolved(path_km: np.ndarray, cov_km2: np.ndarray, hbr_km: float,
                      thresholds: tuple[float, ...], samples: int = PATH_MC_SAMPLES,
                      max_samples: int = PATH_MC_MAX_SAMPLES, seed: int = 1
                      ) -> tuple[MonteCarloPc, bool]:
-    """Sample until the 99 % interval lies on one side of every threshold (so the attention
-    level is decided by the data), doubling the count up to max_samples.  The interval is
-    Wilson's, its upper end lowered to pc_path_upper_bound where that is tighter (it decides
-    most remote passes at the first batch).  Returns (estimate, resolved); batches use
-    independent seeds and their hits are pooled."""
+    """A plain Monte Carlo batch first (its Wilson 99 % interval, the upper end lowered to
+    pc_path_upper_bound where that is tighter: this decides most passes at once); while the
+    interval still straddles a threshold, importance sampling around the hard-body tube takes
+    over, doubling its count until the total reaches max_samples.  Returns (estimate,
+    resolved); resolved means the interval lies on one side of every threshold."""
     bound = pc_path_upper_bound(path_km, cov_km2, hbr_km)
-    hits, done, batch, k = 0, 0, samples, 0
+
+    def clear(e):
+        return all(not (e.lo99 < t <= e.hi99) for t in thresholds)
+
+    mc = pc_path_monte_carlo(path_km, cov_km2, hbr_km, samples=samples, seed=seed)
+    est = MonteCarloPc(mc.pc, min(mc.lo99, bound), min(mc.hi99, bound), mc.samples)
+    if clear(est) or samples >= max_samples:
+        return est, clear(est)
+    done, batch, k = samples, IS_FIRST_BATCH, 0
     while True:
-        mc = pc_path_monte_carlo(path_km, cov_km2, hbr_km, samples=batch, seed=seed + k)
-        hits += round(mc.pc * batch)
-        done += batch
-        est = wilson(hits, done)
-        est = MonteCarloPc(est.pc, min(est.lo99, bound), min(est.hi99, bound), est.samples)
-        if all(not (est.lo99 < t <= est.hi99) for t in thresholds):
-            return est, True
-        if done >= max_samples:
-            return est, False
-        batch, k = min(done, max_samples - done), k + 1
+        est = pc_path_importance(path_km, cov_km2, hbr_km, samples=batch, seed=seed + 1 + k)
+        done_total = done + batch
+        est = MonteCarloPc(est.pc, min(est.lo99, bound), min(est.hi99, bound), done_total)
+        if clear(est) or done_total >= max_samples:
+            return est, clear(est)
+        done, batch, k = done_total, min(2 * batch, max_samples - done_total), k + 1

@@ -11,6 +11,7 @@ import os
 import sqlite3
 import urllib.parse
 
+from ..environment import env_float
 from ..errors import ScreenerError
 
 SCHEMA_VERSION = 2
@@ -100,15 +101,8 @@ MIGRATIONS: list[str] = [
 
 
 def lock_wait_s() -> float:
-    """$SCREENER_LOCK_WAIT_S (seconds, >= 0), else DEFAULT_LOCK_WAIT_S."""
-    text = os.environ.get(ENV_LOCK_WAIT, "")
-    try:
-        value = float(text) if text else DEFAULT_LOCK_WAIT_S
-    except ValueError:
-        value = -1.0
-    if not (0.0 <= value <= 86400.0):
-        raise ScreenerError(f"{ENV_LOCK_WAIT}={text!r}: give seconds from 0 to 86400")
-    return value
+    """$SCREENER_LOCK_WAIT_S (seconds, 0 to a day), else DEFAULT_LOCK_WAIT_S."""
+    return env_float(ENV_LOCK_WAIT, DEFAULT_LOCK_WAIT_S, 0.0, 86400.0, "seconds")
 
 
 def describe_sqlite_error(path: str, exc: Exception, waited_s: float) -> str:
