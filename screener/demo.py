@@ -8,6 +8,7 @@ the exports, then opens the TUI on the store when a terminal is attached.
 from __future__ import annotations
 
 import os
+import shutil
 import sys
 
 from .cli.main import main as cli_main
@@ -22,6 +23,8 @@ def main() -> int:
     for suffix in ("", "-wal", "-shm"):
         if os.path.exists(STORE + suffix):
             os.remove(STORE + suffix)
+    # the demo's own exports folder starts afresh too (its runs are renumbered from 1)
+    shutil.rmtree(os.path.join(HERE, "demo-out"), ignore_errors=True)
     print("Last night's run (catalog as of 2026-12-01 12:00 UTC) ...")
     rc = cli_main(["run", "--config", os.path.join(DEMO, "demo-previous.toml"), "--store", STORE,
                    "--quiet"])
