@@ -74,12 +74,17 @@ def store_counts(path):
 
 
 def process_tree(pid):
-    """Every descendant process id of pid (from ps)."""
-    out = subprocess.run(["ps", "-e", "-o", "pid=,ppid="], capture_output=True, text=True).stdout
+    """Every descendant process id of pid (read from /proc, no ps needed)."""
     kids = {}
-    for line in out.splitlines():
-        a, b = (int(x) for x in line.split())
-        kids.setdefault(b, []).append(a)
+    for name in os.listdir("/proc"):
+        if not name.isdigit():
+            continue
+        try:
+            with open(f"/proc/{name}/stat") as fh:
+                ppid = int(fh.read().rsplit(")", 1)[1].split()[1])
+        except (OSError, ValueError, IndexError):
+            continue
+        kids.setdefault(ppid, []).append(int(name))
     seen, todo = [], [pid]
     while todo:
         for k in kids.get(todo.pop(), []):
