@@ -188,3 +188,26 @@ def test_omm_born_sets_reproduce_the_vallado_2006_vectors():
             assert np.max(np.abs(r[0, k] - row[1:4])) < 1e-5, (sid, row[0])
             compared += 1
     assert compared > 200
+
+
+def test_geodetic_height_against_skyfield_wgs84():
+    """Altitudes shown for encounters: our WGS-84 geodetic conversion against skyfield's
+    wgs84 (reference library) for states of a verification satellite, to 1 m and 1e-6 deg."""
+    from skyfield.api import EarthSatellite, load, wgs84
+
+    from screener.propagation.frames import geodetic
+
+    l1 = "1 00005U 58002B   00179.78495062  .00000023  00000-0  28098-4 0  4753"
+    l2 = "2 00005  34.2682 348.7242 1859667 331.7664  19.3264 10.82419157413667"
+    ts = load.timescale(builtin=True)
+    sat = EarthSatellite(l1, l2, "VER-5", ts)
+    rec = ElementSet.from_tle(l1, l2)
+    t_s = np.arange(0.0, 86400.0, 1800.0)
+    r, _, _ = Sgp4Batch([rec]).states(rec.epoch_jd, rec.epoch_fr, t_s)
+    lat, lon, h = geodetic(r[0], rec.epoch_jd, rec.epoch_fr, t_s)
+    t = ts.utc(2000, 6, 27, 0, 0, rec.epoch_fr * 86400.0 + t_s)
+    sub = wgs84.geographic_position_of(sat.at(t))
+    assert np.max(np.abs(h - sub.elevation.km)) < ONE_METRE_KM
+    assert np.max(np.abs(lat - sub.latitude.degrees)) < 1e-6
+    dlon = (lon - sub.longitude.degrees + 180.0) % 360.0 - 180.0
+    assert np.max(np.abs(dlon)) < 1e-6
