@@ -8,6 +8,7 @@ import re
 
 import numpy as np
 
+from ..constants import MAX_RADIUS_KM, RE_WGS84_KM
 from ..errors import ParseError
 from ..textfile import clean_name, clean_text, read_text
 from .ids import object_id_problem
@@ -223,10 +224,10 @@ def _segment(lines: list[str], i: int, path: str) -> tuple[OemSegment, list[int]
         raise ParseError("segment has fewer than two ephemeris lines", path, meta_line)
     rv = np.array(rv_list)
     radius = np.linalg.norm(rv[:, :3], axis=1)
-    if frame != "RTN" and not ((radius > 6378.137 - 100.0) & (radius < 500_000.0)).all():
-        k = int(np.argmax(~((radius > 6378.137 - 100.0) & (radius < 500_000.0))))
-        raise ParseError(f"ephemeris position {radius[k]:.1f} km from the Earth's centre is not "
-                         f"an Earth orbit", path, line_of[k])
+    bad = np.nonzero((radius <= RE_WGS84_KM - 100.0) | (radius >= MAX_RADIUS_KM))[0]
+    if len(bad):
+        raise ParseError(f"ephemeris position {radius[bad[0]]:.1f} km from the Earth's centre is "
+                         f"not an Earth orbit", path, line_of[bad[0]])
     seg = OemSegment(
         object_name=clean_name(meta["OBJECT_NAME"][0]), object_id=meta["OBJECT_ID"][0],
         center="EARTH", frame=frame, time_system=ts, start_jd=start_jd,

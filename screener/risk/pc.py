@@ -112,6 +112,9 @@ def pc_max_line(d: float, R: float) -> float:
     return 2.0 * R / (d * math.sqrt(2.0 * math.pi * math.e)) if d > R else 1.0
 
 
+Z99 = float(stats.norm.ppf(0.995))   # two-sided 99 % normal quantile
+
+
 @dataclasses.dataclass
 class MonteCarloPc:
     pc: float
@@ -137,7 +140,7 @@ def pc_monte_carlo(xm, ym, sx, sy, R, samples=2_000_000, seed=1, chunk=1_000_000
 def wilson(hits: int, samples: int) -> MonteCarloPc:
     """Hit fraction with its Wilson score 99 % interval."""
     p = hits / samples
-    z = stats.norm.ppf(0.995)
+    z = Z99
     denom = 1 + z * z / samples
     centre = (p + z * z / (2 * samples)) / denom
     half = z * math.sqrt(p * (1 - p) / samples + z * z / (4 * samples * samples)) / denom

@@ -16,7 +16,7 @@ import numpy as np
 
 from scipy import special, stats
 
-from .pc import MonteCarloPc, wilson
+from .pc import Z99, MonteCarloPc, wilson
 
 PATH_MC_SAMPLES = 50_000        # first batch; Wilson 99 % interval reported with every estimate
 PATH_MC_MAX_SAMPLES = 400_000   # sampling doubles up to this while a threshold is unresolved
@@ -136,8 +136,7 @@ def pc_path_importance(path_km: np.ndarray, cov_km2: np.ndarray, hbr_km: float,
         done += n
     mean = total / samples
     sd = np.sqrt(max(total2 / samples - mean * mean, 0.0) / samples)
-    z99 = 2.5758293035489004   # two-sided 99 %
-    return MonteCarloPc(mean, max(0.0, mean - z99 * sd), mean + z99 * sd, samples)
+    return MonteCarloPc(mean, max(0.0, mean - Z99 * sd), mean + Z99 * sd, samples)
 
 
 def pc_path_upper_bound(path_km: np.ndarray, cov_km2: np.ndarray, hbr_km: float) -> float:

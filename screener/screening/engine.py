@@ -217,21 +217,30 @@ DECAY_PERIGEE_KM = 400.0      # only objects with a perigee below this altitude 
 DECAY_PROBE_STEP_S = 60.0
 
 
+def _first_decay(code: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """(rows, first sample index) of the rows of `code` (objects x samples) that hold a
+    decay code."""
+    dec = np.isin(code, DECAY_CODES)
+    rows = np.nonzero(dec.any(axis=1))[0]
+    return rows, dec[rows].argmax(axis=1)
+
+
 def _apply_decay(pop: Population, t: np.ndarray, code: np.ndarray,
                  cutoff_s: dict[str, float]) -> dict[str, float]:
     """Mark, in place, every sample at or after an object's re-entry as unusable: from the
-    task's own first decay sample, and from the window-wide cutoff found by plan_tasks.
+    window-wide cutoff found by plan_tasks, and from the task's own first decay sample.
     Returns the cutoff per object id (seconds from the window start)."""
     out = dict(cutoff_s)
-    for k, oid in enumerate(pop.ids):
-        if oid in cutoff_s:
-            late = t >= cutoff_s[oid]
-            code[k][late & (code[k] == codes.OK)] = codes.BELOW_100_KM
-        hit = np.nonzero(np.isin(code[k], DECAY_CODES))[0]
-        if len(hit):
-            first = hit[0]
-            code[k][first:][code[k][first:] == codes.OK] = code[k][first]
-            out[oid] = min(out.get(oid, math.inf), float(t[first]))
+    if cutoff_s:
+        for k, oid in enumerate(pop.ids):
+            if oid in cutoff_s:
+                late = (t >= cutoff_s[oid]) & (code[k] == codes.OK)
+                code[k][late] = codes.BELOW_100_KM
+    rows, first = _first_decay(code)
+    for k, f in zip(rows, first):
+        tail = code[k][f:]
+        tail[tail == codes.OK] = code[k][f]
+        out[pop.ids[k]] = min(out.get(pop.ids[k], math.inf), float(t[f]))
     return out
 
 
@@ -247,12 +256,8 @@ def decay_cutoffs(catalog: Sequence[ElementSet], jd0: float, fr0: float,
         return {}
     t = _grid(0.0, duration_s, DECAY_PROBE_STEP_S)
     _, _, code = Sgp4Batch(low).states(jd0, fr0, t)
-    out = {}
-    for rec, c in zip(low, code):
-        hit = np.nonzero(np.isin(c, DECAY_CODES))[0]
-        if len(hit):
-            out[rec.catalog_id] = float(t[hit[0]])
-    return out
+    rows, first = _first_decay(code)
+    return {low[k].catalog_id: float(t[f]) for k, f in zip(rows, first)}
 
 
 def _bounds(rec: ElementSet, task: Task):
