@@ -127,20 +127,40 @@ def test_export_command_on_a_stored_run(exported, tmp_path):
     p = screener("export", "--store", str(store), "--out", str(tmp_path / "x"), "--cdm", "all")
     assert p.returncode == 0, p.stderr
     assert (tmp_path / "x" / "encounters.csv").exists() and (tmp_path / "x" / "report.txt").exists()
-    n = len(json.loads((tmp_path / "x" / "encounters.json").read_text())["encounters"])
-    assert len(glob.glob(str(tmp_path / "x" / "cdm" / "*.cdm"))) == n
+    doc = json.loads((tmp_path / "x" / "encounters.json").read_text())
+    # one CDM per series (its worst pass) by default; --cdm-per encounter gives one per pass
+    assert len(glob.glob(str(tmp_path / "x" / "cdm" / "*.cdm"))) == len(doc["series"])
+    worst = {e["series"]: e for e in doc["encounters"] if e["worst_of_series"]}
+    assert len(worst) == len(doc["series"])
+    for g in doc["series"]:
+        passes = [e for e in doc["encounters"] if e["series"] == g["series"]]
+        assert g["count"] == len(passes) and g["pc"] == max(e["pc"] for e in passes)
+        assert worst[g["series"]]["tca"] == g["worst_tca"]
+    p = screener("export", "--store", str(store), "--out", str(tmp_path / "z"), "--cdm", "all",
+                 "--cdm-per", "encounter")
+    assert p.returncode == 0, p.stderr
+    assert len(glob.glob(str(tmp_path / "z" / "cdm" / "*.cdm"))) == len(doc["encounters"])
     p = screener("export", "--store", str(tmp_path / "none.sqlite"), "--out", str(tmp_path / "y"))
     assert p.returncode == 4 and "no store" in p.stderr
 
 
+def _catalog_number(field: str) -> str:
+    """A TLE's number field as a catalog number: digits, or alpha-5 (a letter for 10-33, I and
+    O skipped: common practice since catalog numbers passed 99999)."""
+    t = field.strip()
+    if t.isdigit():
+        return str(int(t))
+    return str((10 + "ABCDEFGHJKLMNPQRSTUVWXYZ".index(t[0])) * 10000 + int(t[1:]))
+
+
 def _newest_tles(paths):
-    """{catalog id: (line1, line2)} with the newest epoch per object, read here directly."""
+    """{catalog number: (line1, line2)} with the newest epoch per object, read here directly."""
     best = {}
     for path in paths:
         lines = [ln.rstrip("\n") for ln in open(path)]
         for k, l1 in enumerate(lines):
             if l1.startswith("1 ") and k + 1 < len(lines) and lines[k + 1].startswith("2 "):
-                oid, epoch = l1[2:7].strip(), float(l1[18:32])
+                oid, epoch = _catalog_number(l1[2:7]), float(l1[18:32])
                 if oid not in best or epoch > best[oid][0]:
                     best[oid] = (epoch, l1, lines[k + 1])
     return {k: (v[1], v[2]) for k, v in best.items()}

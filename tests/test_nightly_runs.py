@@ -69,9 +69,9 @@ def test_events_are_matched_by_pair_and_tca_tolerance(two_runs):
 def test_history_grows_and_trend_follows_the_miss(two_runs):
     store, *_ = two_runs
     with Store(store) as s:
-        # LARKSPUR-3 (from its OEM, id 2026-903A) x DEB-004 on 2026-12-03 06:00 is in both windows
-        row = s.conn.execute("SELECT * FROM encounters WHERE run_id=2 AND primary_id='2026-903A' "
-                             "AND secondary_id='Z9003'").fetchone()
+        # LARKSPUR-3 (from its OEM, tied to catalog number 900000003) x DEB-004 on 2026-12-03 06:00 is in both windows
+        row = s.conn.execute("SELECT * FROM encounters WHERE run_id=2 AND primary_id='900000003' "
+                             "AND secondary_id='339003'").fetchone()
         hist = queries.event_history(s, row["event_id"])
         assert [h["run_id"] for h in hist] == [1, 2]
         d_miss = hist[1]["miss_km"] - hist[0]["miss_km"]
@@ -95,7 +95,7 @@ def test_diff_lists_new_escalated_and_gone(two_runs):
     assert m, pb.stdout
     assert (int(m[1]), int(m[2]), int(m[4])) == (want_new, want_esc, want_gone)
     # DEB-001 passes LARKSPUR-1 at 06:30 on 2026-12-02, before run B's window: passed, not gone
-    early = [x for x in a if x["secondary_id"] == "Z9000" and x["tca_unix_s"] < b_start]
+    early = [x for x in a if x["secondary_id"] == "339000" and x["tca_unix_s"] < b_start]
     assert early and all(x["event_id"] not in b_events for x in early)
     import json
 
@@ -161,7 +161,8 @@ def test_newer_schema_is_refused(tmp_path):
 
 
 def test_a_schema_1_store_migrates_in_place(tmp_path):
-    """A store written before element sets were kept as OMM keywords opens and migrates."""
+    """A store written before element sets were kept as OMM keywords (and before encounters
+    kept their flags) opens and migrates through every step."""
     import sqlite3
 
     from screener.store.db import MIGRATIONS
@@ -174,6 +175,7 @@ def test_a_schema_1_store_migrates_in_place(tmp_path):
     c.commit()
     c.close()
     with Store(str(path)) as s:
-        assert s.version() == SCHEMA_VERSION == 2
+        assert s.version() == SCHEMA_VERSION == 3
         row = s.conn.execute("SELECT line1, omm_json FROM elsets").fetchone()
         assert row["line1"] == "l1" and row["omm_json"] is None
+        assert "flags" in {r["name"] for r in s.conn.execute("PRAGMA table_info(encounters)")}

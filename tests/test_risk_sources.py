@@ -16,7 +16,7 @@ from scipy import stats
 from screener import synth
 from screener.elements import read_oem
 from screener.elements.oem import OemCovariance
-from screener.risk.attach import cumulative_by_primary
+from screener.risk.series import ENGINE, cumulative_by_primary, group
 from screener.risk.attention import Thresholds
 from screener.risk.covariance import (ASSUMED, CONFIGURED, HISTORY, OEM, CovarianceSources,
                                       SigmaGrowth, assumed, fit_history, from_oem)
@@ -118,17 +118,28 @@ def test_attention_levels_and_the_dilution_rule():
         Thresholds(act_pc=1e-6, watch_pc=1e-5)
 
 
-def test_cumulative_per_primary_is_one_minus_product():
+def test_cumulative_per_primary_combines_series_not_passes():
+    """Probability of at least one of independent events, 1 - prod(1 - p_i) (probability
+    axioms), over a primary's series (different secondaries); the passes of one pair share
+    the same orbit errors, so a series counts once, with its highest pass Pc."""
     from screener.screening.encounter import Encounter
 
-    def enc(p, pc):
-        e = Encounter(p, p, "S", "S", 0.0, JD0, FR0, 1.0, 0, 0, 0, 1.0, 90.0)
-        e.risk = {"pc": pc}
+    def enc(p, s, pc, t_s, v=10.0):
+        e = Encounter(p, p, s, s, t_s, JD0, FR0, 1.0, 0, 0, 0, v, 90.0)
+        e.risk = {"pc": pc, "attention": "routine"}
         return e
 
-    got = cumulative_by_primary([enc("A", 1e-3), enc("A", 2e-3), enc("B", 5e-5)])
-    assert got["A"] == pytest.approx(1 - (1 - 1e-3) * (1 - 2e-3), rel=1e-12)
+    encs = [enc("A", "S", 1e-3, 0.0), enc("A", "S", 2e-3, 3000.0), enc("A", "T", 4e-4, 100.0),
+            enc("B", "S", 5e-5, 0.0)]
+    series = group(encs, ENGINE)
+    by = {g.key: g for g in series}
+    assert by["AxS"].pc == 2e-3 and by["AxS"].count == 2 and by["AxS"].worst is encs[1]
+    got = cumulative_by_primary(series)
+    assert got["A"] == pytest.approx(1 - (1 - 2e-3) * (1 - 4e-4), rel=1e-12)
     assert got["B"] == pytest.approx(5e-5, rel=1e-12)
+    # a slow pass recurring three times is a proximity pair; two fast passes are not
+    slow = [enc("C", "S", 1e-6, k * 3000.0, v=0.004) for k in range(3)]
+    assert group(slow, ENGINE)[0].proximity and not by["AxS"].proximity
 
 
 def _demo_encounters():
@@ -188,11 +199,14 @@ def test_screen_json_and_summary_label_assumed_covariance(tmp_path):
     assert encs and all(e["covariance_source"] == "assumed covariance" for e in encs)
     assert all(e["assumed_covariance"] for e in encs)
     pcs = [e["pc"] for e in encs]
-    assert "Cumulative Pc per primary" in p.stdout and "A = Pc from assumed covariance" in p.stdout
+    assert "Per spacecraft" in p.stdout and "A = Pc from an assumed covariance" in p.stdout
     lines = [l for l in p.stdout.splitlines()
              if l[:3].strip().isdigit() and l.split()[1] in ("act", "watch", "routine")]
-    shown = [float(l.split()[2]) for l in lines]
-    assert shown == sorted(shown, reverse=True) and max(pcs) == pytest.approx(shown[0], rel=1e-2)
+    rank = {"act": 0, "watch": 1, "routine": 2}
+    shown = [(rank[l.split()[1]], -float(l.split()[2]) if l.split()[2] != "<1e-10" else 0.0)
+             for l in lines]
+    assert shown == sorted(shown), "one row per series, by level, then Pc"
+    assert max(pcs) == pytest.approx(-min(x[1] for x in shown), rel=6e-2)   # shown to 2 digits
 
 
 @pytest.mark.parametrize("xm_m,sx_m,sy_m,hbr_m", [(30.0, 50.0, 50.0, 10.0), (200.0, 80.0, 300.0, 20.0),

@@ -40,19 +40,76 @@ def _shown(app):
     return [lst.model.row(k) for k in range(len(lst.model))]
 
 
-async def test_opens_on_the_latest_run_ranked(store):
+def _pairs(rows):
+    """Each pair's passes (one series per pair and run)."""
+    out = {}
+    for r in rows:
+        out.setdefault((r["primary_id"], r["secondary_id"]), []).append(r)
+    return out
+
+
+async def test_opens_on_the_latest_run_one_row_per_series(store):
     app = make_app(store, now=lambda: NOW)
     async with app.run_test(size=(80, 24)) as pilot:
         await pilot.pause()
         assert isinstance(app.screen, TriageScreen)
         rows = _shown(app)
-        db = _db_rows(store)
-        assert len(rows) == len(db)
-        keys = [(-r.pc, r.miss_km) for r in rows]
-        assert keys == sorted(keys), "ranked by Pc, then miss"
+        pairs = _pairs(_db_rows(store))
+        assert len(rows) == len(pairs) < len(_db_rows(store))
+        for r in rows:      # each row is its series' worst pass
+            assert r.pc == max(x["pc"] for x in pairs[(r.primary_id, r.secondary_id)])
+        items = [_list(app).model.item(k) for k in range(len(rows))]
+        keys = [(it.level_rank, -it.row.pc, it.row.miss_km) for it in items]
+        assert keys == sorted(keys), "ranked by level, then Pc, then miss"
         text = str(app.screen.query_one("#run-line").render())
-        assert "run 2" in text
+        assert "run 2" in text and "made" in text and "window" in text
         assert "Advisory only" in str(app.screen.query_one(".caution").render())
+        await pilot.press("a")                      # every pass, not series
+        assert len(_shown(app)) == len(_db_rows(store))
+
+
+async def test_a_series_expands_and_collapses(store):
+    app = make_app(store, now=lambda: NOW)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await pilot.pause()
+        lst = _list(app)
+        head = lst.current_item
+        assert head.series.count > 1, "the demo's top series is the recurring pair"
+        n = len(lst.model)
+        await pilot.press("right")
+        assert len(lst.model) == n + head.series.count
+        members = [lst.model.item(k) for k in range(1, head.series.count + 1)]
+        assert all(m.member for m in members)
+        assert [m.row.tca_unix_s for m in members] == sorted(m.row.tca_unix_s for m in members)
+        await pilot.press("down", "left")           # collapse from a member row
+        assert len(lst.model) == n and lst.current_item.series.key == head.series.key
+
+
+async def test_fleet_summary_is_one_key_away(store):
+    """f lists each spacecraft with its worst series and cumulative risk over its series
+    (1 - prod(1 - series Pc); a series' Pc is its worst pass: not the passes multiplied)."""
+    from screener.tui.fleet_view import COLUMNS, FleetScreen
+
+    pairs = _pairs(_db_rows(store))
+    app = make_app(store, now=lambda: NOW)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await pilot.press("f")
+        await pilot.pause()
+        assert isinstance(app.screen, FleetScreen)
+        table = app.screen.query_one("#fleet-table")
+        first = table.get_row_at(0)
+        pid = first[1]
+        want = 1.0
+        for (p, _s), rows in pairs.items():
+            if p == pid:
+                want *= 1.0 - max(r["pc"] for r in rows)
+        from screener.display import fmt_pc
+
+        assert first[COLUMNS.index("cum. Pc")] == fmt_pc(1.0 - want)
+        await pilot.press("enter")
+        await pilot.pause()
+        assert isinstance(app.screen, TriageScreen)
+        assert {r.primary_id for r in _shown(app)} == {pid}
 
 
 async def test_sort_and_reverse(store):
@@ -72,25 +129,29 @@ async def test_filters_level_primary_window_and_escape(store):
     app = make_app(store, now=lambda: NOW)
     db = _db_rows(store)
     async with app.run_test(size=(80, 24)) as pilot:
+        from screener.display import fmt_pc
+
         await pilot.press("l")
         rows = _shown(app)
         assert rows and {r.attention for r in rows} == {"act"}
-        assert len(rows) == sum(1 for r in db if r["attention"] == "act")
+        assert len(rows) == len(_pairs(r for r in db if r["attention"] == "act"))
         await pilot.press("escape", "p")
         rows = _shown(app)
-        first = sorted({r["primary_id"] for r in db})[0]
+        names = {r["primary_id"]: r["primary_name"] for r in db}
+        first = sorted(names, key=lambda p: (names[p], p))[0]
         assert {r.primary_id for r in rows} == {first}
         want = 1.0
-        for r in db:
-            if r["primary_id"] == first:
-                want *= 1.0 - r["pc"]
-        assert f"cumulative Pc {1.0 - want:.1e}" in str(app.screen.query_one("#filter-line").render())
+        for (p, _s), passes in _pairs(db).items():
+            if p == first:
+                want *= 1.0 - max(r["pc"] for r in passes)
+        line = str(app.screen.query_one("#filter-line").render())
+        assert f"cumulative Pc {fmt_pc(1.0 - want)}" in line and names[first] in line
         await pilot.press("escape", "t")           # TCA within the next 24 h of "now"
         rows = _shown(app)
         assert all(NOW <= r.tca_unix_s <= NOW + 86400 for r in rows)
-        assert len(rows) == sum(1 for r in db if NOW <= r["tca_unix_s"] <= NOW + 86400)
+        assert len(rows) == len(_pairs(r for r in db if NOW <= r["tca_unix_s"] <= NOW + 86400))
         await pilot.press("escape")
-        assert len(_shown(app)) == len(db)
+        assert len(_shown(app)) == len(_pairs(db))
 
 
 async def test_search_over_ids_and_names(store):
@@ -114,8 +175,9 @@ async def test_open_event_plots_and_back(store):
         assert isinstance(app.screen, EventScreen) and app.screen.encounter_id == top.id
         facts = str(app.screen.query_one("#event-facts").render())
         for needle in ("TCA", "radial", "in-track", "cross-track", "crossing angle", "period",
-                       "covariance", "2-D quadrature", "max Pc", "hard-body radius"):
+                       "covariance", "2-D quadrature", "max 2-D Pc", "hard-body radius", "series"):
             assert needle in facts
+        assert facts.count("Chan not used") + facts.count("(not used:") <= 1, "said once"
         plot = str(app.screen.query_one("#event-plot").render())
         assert "range (km) vs time from TCA" in plot
         await pilot.press("2")
@@ -134,12 +196,12 @@ async def test_export_cdm_and_copy_line(store):
         top = _shown(app)[0]
         await pilot.press("e")
         path = app.last_export
-        assert os.path.exists(path) and path.startswith(os.path.dirname(store))
+        assert os.path.exists(path) and path.startswith(app.outputs_folder(app.open_store()))
         cdm = read_cdm(path)
         assert cdm.object1_designator == top.primary_id
         assert cdm.object2_designator == top.secondary_id
         await pilot.press("y")
-        assert app.clipboard.startswith(f"{top.primary_id} ({top.primary_name}) x {top.secondary_id}")
+        assert app.clipboard.startswith(f"{top.primary_name} ({top.primary_id}) x {top.secondary_name}")
         assert "advisory only" in app.clipboard
         await pilot.press("enter", "e", "y")
         assert isinstance(app.screen, EventScreen) and os.path.exists(app.last_export)
@@ -153,6 +215,8 @@ async def test_help_is_generated_from_the_bindings(store):
         text = str(app.screen.query_one("#help-text").render())
         for b in TriageScreen.BINDINGS + EncounterList.BINDINGS:
             assert b.description in text
+        assert "left_square_bracket" not in text and "[, " not in text
+        assert "  [  " in text and "  ]  " in text
         await pilot.press("escape")
         await pilot.press("enter", "question_mark")
         text = str(app.screen.query_one("#help-text").render())
@@ -221,6 +285,7 @@ async def test_fifty_thousand_rows_are_virtual(big_store):
     app = make_app(big_store, now=lambda: NOW)
     async with app.run_test(size=(80, 24)) as pilot:
         await pilot.pause()
+        await pilot.press("a")                      # every pass, not one row per series
         lst = _list(app)
         assert len(lst.model) == 50_000
         assert lst.virtual_size.height == 50_000 and not lst.children
@@ -241,11 +306,17 @@ async def test_no_color_and_light_theme(store, monkeypatch):
         assert isinstance(app.screen, TriageScreen)
 
 
+def _cells(text: str, width: int) -> dict:
+    from screener.tui.encounter_list import layout
+
+    return {c.title: text[x:x + c.width].strip() for c, x in layout(width)}
+
+
 @pytest.mark.parametrize("size", [(80, 24), (160, 48)])
 async def test_rendered_rows_carry_the_stored_values(store, size):
     """What the snapshots show, asserted as values: each visible row's cells, cut at the
-    column layout, equal the stored encounter's figures at display precision."""
-    from screener.tui.encounter_list import visible_columns
+    column layout, equal the stored encounter's figures at display precision, with names."""
+    from screener.display import fmt_pc, fmt_speed
 
     db = {r["id"]: r for r in _db_rows(store)}
     app = make_app(store, now=lambda: NOW)
@@ -257,19 +328,85 @@ async def test_rendered_rows_carry_the_stored_values(store, size):
             text = "".join(seg.text for seg in lst.render_line(y))
             row = lst.model.row(y)
             want = db[row.id]
-            cells, x = {}, 1          # column 0 holds the cursor marker
-            for title, w, *_ in visible_columns(lst.size.width):
-                cells.setdefault(title, text[x:x + w].strip())
-                x += w + 1
+            cells = _cells(text, lst.size.width)
             assert cells["level"] == want["attention"]
-            assert abs(float(cells["Pc"]) - want["pc"]) <= 0.051 * want["pc"] + 1e-300
-            assert abs(float(cells["miss km"]) - want["miss_km"]) <= 0.0005 + 1e-12
-            assert abs(float(cells["km/s"]) - want["relative_speed_km_s"]) <= 0.005 + 1e-12
-            assert cells["primary"] == want["primary_id"][:9]
-            assert cells["secondary"] == want["secondary_id"][:9]
-            assert want["tca_utc"][5:16].replace("T", " ") in text
+            assert cells["Pc"] == fmt_pc(want["pc"])
+            assert abs(float(cells["miss m"]) - want["miss_km"] * 1e3) <= 0.5 + 1e-9
+            assert cells["rel v"] == fmt_speed(want["relative_speed_km_s"])
+            assert cells["primary"] == want["primary_name"][:len(cells["primary"])] != ""
+            assert cells["secondary"] == want["secondary_name"][:len(cells["secondary"])] != ""
+            assert int(cells["n"]) == lst.model.item(y).count
+            assert want["tca_utc"][8:16].replace("T", " ") in text
             checked += 1
         assert checked == 8
+
+
+async def test_units_floor_and_past_are_truthful(store):
+    """A 4 m/s pass reads "4 m/s" (never "0.00"); a Pc under 1e-10 reads "<1e-10" (never 0,
+    -inf or 1e-92); a TCA before "now" reads "past"."""
+    app = make_app(store, now=lambda: NOW + 12 * 3600)
+    async with app.run_test(size=(120, 40)) as pilot:
+        await pilot.press("a")
+        lst = _list(app)
+        seen = set()
+        for k in range(len(lst.model)):
+            it = lst.model.item(k)
+            lst.cursor = k
+            lst.scroll_to(y=k, animate=False)
+            await pilot.pause()
+            cells = _cells("".join(seg.text for seg in lst.render_line(0)), lst.size.width)
+            if it.row.relative_speed_km_s < 0.01:
+                assert cells["rel v"].endswith(" m/s") and cells["rel v"] != "0 m/s"
+                seen.add("slow")
+            if it.row.pc < 1e-10:
+                assert cells["Pc"] == "<1e-10" and cells["log10"] == "<-10"
+                seen.add("floor")
+            if it.row.tca_unix_s < NOW + 12 * 3600:
+                assert cells["to TCA"] == "past"
+                seen.add("past")
+            if len(seen) == 3:
+                break
+        assert seen == {"slow", "floor", "past"}
+
+
+async def test_column_titles_stand_over_their_columns_at_every_width(store):
+    """At every terminal width from 80 to 200 the title row is laid out for the list's own
+    width, each title starting where its column starts (the list's first row checked)."""
+    from textual.geometry import Region
+
+    from screener.tui.encounter_list import ColumnHeader, layout
+
+    app = make_app(store, now=lambda: NOW)
+    async with app.run_test(size=(80, 30)) as pilot:
+        for width in range(80, 201):
+            await pilot.resize_terminal(width, 30)
+            await pilot.pause()
+            lst = _list(app)
+            header = app.screen.query_one(ColumnHeader)
+            # what each widget puts on screen (its padding and scrollbar included)
+            title = "".join(seg.text for seg in header.render_lines(Region(0, 0, header.size.width, 1))[0])
+            row = "".join(seg.text for seg in lst.render_lines(Region(0, 0, lst.outer_size.width, 1))[0])
+            assert header.region.x == lst.region.x
+            title, row = title[:lst.size.width], row[:lst.size.width]
+            cols = layout(lst.size.width)
+            assert {c.title for c, _ in cols} >= {"level", "Pc", "miss m", "TCA UTC", "to TCA",
+                                                  "rel v", "primary", "secondary", "n", "flg"}, width
+            for c, x in cols:
+                cell = title[x:x + c.width]
+                assert cell.strip() == c.title[:c.width], (width, c.title)
+                assert row[x - 1] in (" ", ">") if x == 1 else row[x - 1] == " ", (width, c.title)
+
+
+async def test_footer_shows_help_at_80_columns(store):
+    from textual.widgets._footer import FooterKey
+
+    for screen_keys in ((), ("enter",), ("f",)):
+        app = make_app(store, now=lambda: NOW)
+        async with app.run_test(size=(80, 24)) as pilot:
+            await pilot.press(*screen_keys)
+            await pilot.pause()
+            keys = [k for k in app.screen.query(FooterKey) if k.key == "question_mark"]
+            assert keys and keys[0].region.right <= 80, screen_keys
 
 
 async def test_names_are_shown_as_text_never_as_markup(store):

@@ -14,6 +14,20 @@ from .test_tui import NOW
 pytestmark = pytest.mark.timeout(120)
 
 
+@pytest.fixture
+def store(store):
+    """The demo store with its runs' creation times pinned (the run line shows when a run was
+    made; the test store is built afresh each session)."""
+    import sqlite3
+
+    c = sqlite3.connect(store)
+    c.execute("UPDATE runs SET started_utc = '2026-12-01T23:0' || id || ':00.000Z', "
+              "finished_utc = '2026-12-01T23:0' || id || ':30.000Z'")
+    c.commit()
+    c.close()
+    return store
+
+
 @pytest.mark.parametrize("size", [(80, 24), (160, 48)])
 def test_triage_screen(snap_compare, store, size):
     assert snap_compare(make_app(store, now=lambda: NOW), terminal_size=size)

@@ -38,13 +38,13 @@ def test_tui_in_tmux(demo_store_path):
                    check=True, env=env)
     try:
         screen = _wait(session, "run 2")
-        assert "level" in screen and "miss km" in screen and "act" in screen
+        assert "level" in screen and "miss m" in screen and "act" in screen
         assert "Advisory only" in screen
         subprocess.run(["tmux", "send-keys", "-t", session, "Enter"], check=True)
         screen = _wait(session, "event ")
         assert "TCA" in screen and "Advisory only" in screen
         subprocess.run(["tmux", "send-keys", "-t", session, "Escape"], check=True)
-        _wait(session, "showing")
+        _wait(session, " series of ")
         time.sleep(0.5)   # Esc waits ESCDELAY (100 ms) for a following key; let it settle
         subprocess.run(["tmux", "send-keys", "-t", session, "q"], check=True)
         t_end = time.monotonic() + 20

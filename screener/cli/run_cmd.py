@@ -34,6 +34,8 @@ def add_run_parsers(sub) -> None:
     p.add_argument("--out", required=True, metavar="FOLDER")
     p.add_argument("--cdm", choices=("none", "act", "watch", "all"), default="act",
                    help="CDM files for events at this level or above (default act)")
+    p.add_argument("--cdm-per", choices=("series", "encounter"), default="series",
+                   help="one CDM per series (its worst pass; default) or per encounter")
     p.add_argument("--report", choices=("none", "text", "html"), default="text")
     p.set_defaults(func=cmd_export)
 
@@ -107,7 +109,8 @@ def cmd_run(args) -> int:
 
             folder = os.path.join(cfg.outputs.folder, f"run-{out.run_id}")
             exports = export_run(store, out.run_id, folder, cfg.outputs.json, cfg.outputs.csv,
-                                 cfg.outputs.cdm, cfg.outputs.report, render_diff(out.diff))
+                                 cfg.outputs.cdm, cfg.outputs.report, render_diff(out.diff),
+                                 cfg.outputs.cdm_per)
         if args.json:
             write_result_json(args.json, out.result, {"run_id": out.run_id, "store": store.path,
                                                       "changes": out.diff.to_json()})
@@ -118,9 +121,14 @@ def cmd_run(args) -> int:
                 print(f"Exports: {len(exports)} files in {folder}")
     finally:
         store.close()
-    n_act = sum(1 for e in out.result.encounters if e.risk.get("attention") == ACT)
-    if args.fail_on_act and n_act:
-        print(f"screener: {n_act} event(s) at the act level", file=sys.stderr)
+    act = [e for e in out.result.encounters if e.risk.get("attention") == ACT]
+    if args.fail_on_act and act:
+        from ..display import plural
+        from ..risk.series import ENGINE, group
+
+        n_series = len(group(act, ENGINE))
+        print(f"screener: {plural(n_series, 'series', 'series')} at the act level "
+              f"({plural(len(act), 'encounter')})", file=sys.stderr)
         return EXIT_ACT
     return EXIT_OK
 
@@ -138,7 +146,8 @@ def cmd_export(args) -> int:
 
     store = open_store(args.store, create=False, readonly=True)
     try:
-        written = export_run(store, args.run, args.out, cdm=args.cdm, report=args.report)
+        written = export_run(store, args.run, args.out, cdm=args.cdm, report=args.report,
+                             cdm_per=args.cdm_per)
     finally:
         store.close()
     for p in written:
@@ -147,6 +156,9 @@ def cmd_export(args) -> int:
 
 
 def cmd_tui(args) -> int:
+    from ..config import load_config
     from ..tui import run_tui
 
+    if args.config:
+        load_config(args.config)        # a bad configuration is reported now, not on `n`
     return run_tui(store_path=args.store, config_path=args.config)

@@ -1,42 +1,52 @@
-"""Plain-text ranked summary of a screening (terminal and e-mail friendly)."""
+"""Plain-text ranked summary of a screening (terminal and e-mail friendly): one row per series
+(a pair's passes in the window), then each spacecraft's worst series and cumulative risk."""
 
 from __future__ import annotations
 
-import math
-
 from .. import CAUTION
-from ..risk.attach import cumulative_by_primary
-from ..risk.attention import LEVEL_RANK, LEVELS
+from ..display import fmt_log10, fmt_pc, fmt_speed, plural
+from ..risk.attention import LEVELS
+from ..risk.flags import PROXIMITY, legend_text
+from ..risk.series import CUMULATIVE_RULE, ENGINE, SERIES_PC_RULE, cumulative_by_primary, group
 from ..timeutil import iso_z
+
+UNUSABLE_LISTED = 5
 
 
 def ranked(encounters):
     return sorted(encounters, key=lambda e: (-e.pc, e.miss_km))
 
 
-def fmt_pc(pc: float) -> str:
-    return f"{pc:9.2e}" if pc > 0 else f"{'0':>9}"
+def series_flags(g) -> str:
+    return (g.worst.risk.get("flags", "") if g.worst.risk else "") + (PROXIMITY if g.proximity else "")
 
 
-def fmt_log10(pc: float) -> str:
-    return f"{math.log10(pc):6.1f}" if pc > 0 else f"{'-inf':>6}"
-
-
-UNUSABLE_LISTED = 5
+def _passes(g) -> str:
+    if g.count == 1:
+        return "1"
+    first, last = g.members[0].tca, g.members[-1].tca
+    return f"{g.count} ({first:%m-%d %H:%M} to {last:%m-%d %H:%M})"
 
 
 def render(result, limit: int = 25, thresholds=None, diff=None) -> str:
     req = result.request
-    encs = ranked(result.encounters)
+    encs = result.encounters
+    series = group(encs, ENGINE)
+    names = {}
+    for e in encs:
+        names[e.primary], names[e.secondary] = e.primary_name, e.secondary_name
+    n_prim = len(req.primaries) + len(req.primary_oems)
     lines = [
-        f"Screening window: {len(req.primaries) + len(req.primary_oems) or 'all'} primaries"
-        f" vs {len(req.catalog)} objects, {req.duration_s / 86400:g} days, {req.volume.describe()}",
-        f"Encounters: {len(encs)}   pairs bracketed: {result.stats.get('brackets', 0)}   "
+        f"Screening window: {plural(n_prim, 'primary', 'primaries') if n_prim else 'all objects'}"
+        f" vs {plural(len(req.catalog), 'object')}, {req.duration_s / 86400:g} "
+        f"{'day' if req.duration_s == 86400 else 'days'}, {req.volume.describe()}",
+        f"Encounters: {len(encs)} in {plural(len(series), 'series', 'series')} (a series is one "
+        f"pair's passes in the window)   pairs bracketed: {result.stats.get('brackets', 0)}   "
         f"wall time: {result.stats.get('wall_s', 0):.1f} s",
     ]
     if thresholds is not None:
-        counts = {lv: sum(1 for e in encs if e.risk.get("attention") == lv) for lv in LEVELS}
-        lines.append("Attention: " + "   ".join(f"{lv} {counts[lv]}" for lv in LEVELS)
+        counts = {lv: sum(1 for g in series if LEVELS[g.level_rank] == lv) for lv in LEVELS}
+        lines.append("Series by attention: " + "   ".join(f"{lv} {counts[lv]}" for lv in LEVELS)
                      + f"   [{thresholds.describe()}]")
     if result.unusable:
         lines.append(f"Objects not screened over part or all of the window: {len(result.unusable)}")
@@ -47,34 +57,41 @@ def render(result, limit: int = 25, thresholds=None, diff=None) -> str:
             lines.append(f"  ... and {len(items) - UNUSABLE_LISTED} more (all in --json)")
     if diff is not None:
         lines.append(render_diff(diff))
-    if encs:
+    if series:
         lines.append("")
-        lines.append(f"{'#':>3} {'level':<7} {'Pc':>9} {'log10':>6} {'primary':<12} {'secondary':<12} "
-                     f"{'TCA (UTC)':<24} {'miss km':>8} {'R km':>7} {'I km':>7} {'C km':>7} "
-                     f"{'v km/s':>6} cov")
-        for n, e in enumerate(encs[:limit], start=1):
-            rk = e.risk
-            flags = (("A" if rk.get("assumed_covariance") else "") + ("D" if rk.get("dilution_region") else "")
-                     + ("S" if rk.get("short_encounter_ok") is False else ""))
-            lines.append(f"{n:>3} {rk.get('attention', ''):<7} {fmt_pc(e.pc)} {fmt_log10(e.pc)} "
-                         f"{e.primary:<12.12} {e.secondary:<12.12} {iso_z(e.tca, 3):<24} "
-                         f"{e.miss_km:8.3f} {e.radial_km:7.3f} {e.in_track_km:7.3f} "
-                         f"{e.cross_track_km:7.3f} {e.relative_speed_km_s:6.2f} {flags}")
-        if len(encs) > limit:
-            lines.append(f"    ... {len(encs) - limit} more (use --json for all)")
-        lines.append("cov flags: A = Pc from assumed covariance (a regime model, not measured), "
-                     "D = dilution region (Pc would rise if the uncertainty shrank: a low Pc is not reassuring), "
-                     "S = slow or long encounter (the 2-D short-encounter Pc is doubtful)")
-        cum = cumulative_by_primary(encs)
-        if cum and len(cum) < 50:
-            lines.append("")
-            lines.append("Cumulative Pc per primary over the window, 1 - prod(1 - Pc_i):")
-            for pid, p in cum.items():
-                n_e = sum(1 for e in encs if e.primary == pid)
-                worst = min((LEVEL_RANK.get(e.risk.get("attention"), 2) for e in encs if e.primary == pid))
-                lines.append(f"  {pid:<12} {p:9.2e}  ({n_e} encounters, highest level {LEVELS[worst]})")
+        lines.append(f"{'#':>3} {'level':<7} {'Pc':>7} {'log10':>5} {'primary':<12} {'secondary':<12} "
+                     f"{'id':<9} {'worst TCA (UTC)':<24} {'miss km':>7} {'R km':>6} {'I km':>6} "
+                     f"{'C km':>6} {'rel v':>9} {'flg':<4} passes")
+        for n, g in enumerate(series[:limit], start=1):
+            e = g.worst
+            lines.append(f"{n:>3} {LEVELS[g.level_rank]:<7} {fmt_pc(g.pc):>7} {fmt_log10(g.pc):>5} "
+                         f"{e.primary_name or e.primary:<12.12} {e.secondary_name or e.secondary:<12.12} "
+                         f"{e.secondary:<9.9} {iso_z(e.tca, 3):<24} {e.miss_km:7.3f} "
+                         f"{e.radial_km:6.3f} {e.in_track_km:6.3f} {e.cross_track_km:6.3f} "
+                         f"{fmt_speed(e.relative_speed_km_s):>9} {series_flags(g):<4} {_passes(g)}")
+        if len(series) > limit:
+            lines.append(f"    ... {len(series) - limit} more series (use --json for all)")
+        lines.append("flags: " + legend_text())
+        lines.append(SERIES_PC_RULE[0].upper() + SERIES_PC_RULE[1:] + "; the row shows the worst pass.")
+        lines += render_fleet(series, names)
     lines += ["", CAUTION]
     return "\n".join(lines)
+
+
+def render_fleet(series, names: dict) -> list[str]:
+    """Each primary: its series by level, its worst series and its cumulative risk."""
+    cum = cumulative_by_primary(series)
+    if not cum or len(cum) >= 50:
+        return []
+    out = ["", f"Per spacecraft; {CUMULATIVE_RULE}:"]
+    for pid in sorted(cum, key=lambda p: -cum[p]):
+        mine = [g for g in series if g.primary == pid]
+        worst = mine[0]
+        by = "  ".join(f"{lv} {sum(1 for g in mine if g.level_rank == k)}" for k, lv in enumerate(LEVELS))
+        out.append(f"  {names.get(pid) or pid:<12.12} {pid:<10} cumulative Pc {fmt_pc(cum[pid]):>7}  "
+                   f"{by}  worst: {names.get(worst.secondary) or worst.secondary} "
+                   f"{iso_z(worst.worst.tca, 0)} Pc {fmt_pc(worst.pc)}")
+    return out
 
 
 def render_diff(diff) -> str:
@@ -87,5 +104,5 @@ def render_diff(diff) -> str:
         for it in [i for i in items if label != "new" or i["attention"] != "routine"][:10]:
             was = f" (was {it['was']})" if "was" in it else ""
             out.append(f"  {label:<10} {it['primary']} x {it['secondary']} TCA {it['tca']} "
-                       f"{it['attention']}{was} miss {it['miss_km']:.3f} km Pc {it['pc']:.1e}")
+                       f"{it['attention']}{was} miss {it['miss_km']:.3f} km Pc {fmt_pc(it['pc'])}")
     return "\n".join(out)

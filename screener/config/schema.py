@@ -46,6 +46,7 @@ class OutputsConfig:
     json: bool = True
     csv: bool = True
     cdm: str = "act"                   # write CDMs for events at or above this level
+    cdm_per: str = "series"            # one CDM per series (its worst pass) or per "encounter"
     report: str = "text"
 
 
@@ -76,6 +77,9 @@ class Config:
     event_tca_tolerance_s: float = 600.0
     outputs: OutputsConfig = dataclasses.field(default_factory=OutputsConfig)
     store: str | None = None
+    # where each per-object entry was written ("file:line"), keyed by (table, object id), so
+    # an entry that matches no object can be reported at its line
+    object_entries: dict[tuple[str, str], str] = dataclasses.field(default_factory=dict)
 
     def radius_m(self, object_id: str, is_primary: bool) -> float:
         m = self.members.get(object_id)
@@ -87,6 +91,7 @@ class Config:
 
     def snapshot(self) -> dict:
         d = dataclasses.asdict(self)
+        d.pop("object_entries")
         d["thresholds"] = {"act_pc": self.thresholds.act_pc, "watch_pc": self.thresholds.watch_pc}
         d["covariance"] = {
             "objects": {k: dataclasses.asdict(v) for k, v in self.covariance.objects.items()},
@@ -214,7 +219,7 @@ def _build(data: dict, rd: _Reader, base: str, path: str | None) -> Config:
     cov = rd.table(data.get("covariance", {}), ("covariance",), {"objects", "regimes", "use_history"})
     thr = rd.table(data.get("thresholds", {}), ("thresholds",), {"act_pc", "watch_pc"})
     ev = rd.table(data.get("events", {}), ("events",), {"tca_tolerance_s"})
-    out = rd.table(data.get("outputs", {}), ("outputs",), {"folder", "json", "csv", "cdm", "report"})
+    out = rd.table(data.get("outputs", {}), ("outputs",), {"folder", "json", "csv", "cdm", "cdm_per", "report"})
     st = rd.table(data.get("store", {}), ("store",), {"path"})
 
     cfg = Config(
@@ -251,6 +256,7 @@ def _build(data: dict, rd: _Reader, base: str, path: str | None) -> Config:
     cfg.fleet_default_radius_m = rd.num(fleet, ("fleet", "default_radius_m"), DEFAULT_RADIUS_M, positive=True)
     for oid, m in rd.table(fleet.get("objects", {}), ("fleet", "objects"), None).items():
         keys = ("fleet", "objects", oid)
+        cfg.object_entries[("fleet.objects", oid)] = rd.where(keys)
         t = rd.table(m, keys, {"radius_m", "maneuverable"})
         cfg.members[oid] = FleetMember(rd.num(t, keys + ("radius_m",), None, positive=True),
                                        rd.boolean(t, keys + ("maneuverable",), None))
@@ -265,6 +271,7 @@ def _build(data: dict, rd: _Reader, base: str, path: str | None) -> Config:
     cfg.catalog_default_radius_m = rd.num(cat, ("catalog", "default_radius_m"), DEFAULT_RADIUS_M, positive=True)
     for oid, m in rd.table(cat.get("objects", {}), ("catalog", "objects"), None).items():
         keys = ("catalog", "objects", oid)
+        cfg.object_entries[("catalog.objects", oid)] = rd.where(keys)
         t = rd.table(m, keys, {"radius_m"})
         r = rd.num(t, keys + ("radius_m",), None, positive=True)
         if r is not None:
@@ -280,6 +287,7 @@ def _build(data: dict, rd: _Reader, base: str, path: str | None) -> Config:
 
     cc = CovarianceConfig(use_history=rd.boolean(cov, ("covariance", "use_history"), True))
     for oid, t in rd.table(cov.get("objects", {}), ("covariance", "objects"), None).items():
+        cfg.object_entries[("covariance.objects", oid)] = rd.where(("covariance", "objects", oid))
         cc.objects[oid] = rd.sigma(t, ("covariance", "objects", oid))
     for reg, t in rd.table(cov.get("regimes", {}), ("covariance", "regimes"), set(REGIMES)).items():
         cc.regimes[reg] = rd.sigma(t, ("covariance", "regimes", reg))
@@ -298,6 +306,7 @@ def _build(data: dict, rd: _Reader, base: str, path: str | None) -> Config:
         json=rd.boolean(out, ("outputs", "json"), True),
         csv=rd.boolean(out, ("outputs", "csv"), True),
         cdm=rd.string(out, ("outputs", "cdm"), "act", CDM_CHOICES),
+        cdm_per=rd.string(out, ("outputs", "cdm_per"), "series", ("series", "encounter")),
         report=rd.string(out, ("outputs", "report"), "text", REPORT_CHOICES))
     sp = rd.string(st, ("store", "path"), None)
     cfg.store = os.path.normpath(os.path.join(base, os.path.expanduser(sp))) if sp else None

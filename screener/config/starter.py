@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import json
 import os
 
 from ..errors import ConfigError
@@ -64,6 +65,7 @@ folder = "screener-out"      # per-run exports go to FOLDER/run-<id>/
 json = true
 csv = true
 cdm = "act"                  # CDM files for events at: none | act | watch | all
+cdm_per = "series"           # one CDM per series (its worst pass) | per "encounter"
 report = "text"              # none | text | html
 
 # [store]
@@ -76,10 +78,20 @@ def write_starter(path: str, fleet: list[str] | None = None, catalog: list[str] 
     if os.path.exists(path) and not force:
         raise ConfigError(f"{path} exists; not overwriting it (use --force)")
 
-    def lst(xs):
-        return "[" + ", ".join(f'"{x}"' for x in xs) + "]"
+    here = os.path.dirname(os.path.abspath(path))
 
-    text = STARTER.format(fleet=lst(fleet or ["fleet.json"]), catalog=lst(catalog or ["catalog.tle"]))
+    def rel(x: str) -> str:
+        """A path given on the command line (relative to the working folder) as the
+        configuration reads it: relative to the configuration's own folder."""
+        if not os.path.exists(x):
+            raise ConfigError(f"{x}: no such file or folder (init-config writes only paths that exist)")
+        return os.path.relpath(os.path.abspath(x), here)
+
+    def lst(xs):
+        return "[" + ", ".join(json.dumps(x) for x in xs) + "]"
+
+    text = STARTER.format(fleet=lst([rel(x) for x in fleet] if fleet else ["fleet.json"]),
+                          catalog=lst([rel(x) for x in catalog] if catalog else ["catalog.tle"]))
     try:
         with open(path, "w", encoding="utf-8") as fh:
             fh.write(text)

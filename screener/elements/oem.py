@@ -11,7 +11,7 @@ import numpy as np
 from ..constants import MAX_RADIUS_KM, RE_WGS84_KM
 from ..errors import ParseError
 from ..textfile import clean_name, clean_text, read_text
-from .ids import object_id_problem
+from .ids import INTERNATIONAL_DESIGNATOR, canonical_id, object_id_problem
 from ..timeutil import datetime_to_jd, parse_iso
 
 _KVN = re.compile(r"^\s*([A-Z0-9_]+)\s*=\s*(.*?)\s*$")
@@ -65,10 +65,18 @@ class Oem:
     originator: str
     segments: list[OemSegment]
     gaps: list[OemGap] = dataclasses.field(default_factory=list)
+    catalog_id: str = ""    # set when the inputs tie this ephemeris to a catalog number
 
     @property
     def object_id(self) -> str:
-        return self.segments[0].object_id
+        """The object's one id: its catalog number where known (OBJECT_ID may be one, or the
+        inputs matched the designator to an element set), else the file's OBJECT_ID."""
+        return self.catalog_id or canonical_id(self.segments[0].object_id)
+
+    @property
+    def intl_designator(self) -> str:
+        oid = self.segments[0].object_id
+        return oid if INTERNATIONAL_DESIGNATOR.match(oid) else ""
 
     @property
     def object_name(self) -> str:

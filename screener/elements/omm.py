@@ -12,7 +12,7 @@ from typing import Iterator
 from ..errors import ParseError
 from ..timeutil import datetime_to_jd, iso_z, jd_to_datetime, parse_iso
 from ..textfile import clean_name
-from .ids import object_id_problem
+from .ids import canonical_id, cospar_designator, object_id_problem
 from .record import ElementSet, Source, check_elements
 
 # Keywords this reader needs for SGP4 (CCSDS 502.0-B-3, section 4, mean elements + TLE params).
@@ -68,7 +68,7 @@ def record_from_omm_fields(fields: dict, src: Source) -> ElementSet:
     if why:
         raise ParseError(why, src.path, src.line)
     rec = ElementSet(
-        catalog_id=cat_id,
+        catalog_id=canonical_id(cat_id),
         name=clean_name(fields.get("OBJECT_NAME", "") or ""),
         epoch_jd=jd,
         epoch_fr=fr,
@@ -81,7 +81,7 @@ def record_from_omm_fields(fields: dict, src: Source) -> ElementSet:
         bstar_per_earth_radius=_num(fields, "BSTAR", src),
         ndot_rev_day2=_num(fields, "MEAN_MOTION_DOT", src, 0.0),
         nddot_rev_day3=_num(fields, "MEAN_MOTION_DDOT", src, 0.0),
-        intl_designator=clean_name(fields.get("OBJECT_ID", "") or ""),
+        intl_designator=cospar_designator(clean_name(fields.get("OBJECT_ID", "") or "")),
         classification=clean_name(fields.get("CLASSIFICATION_TYPE", "U") or "U")[:1] or "U",
         element_set_no=_int(fields, "ELEMENT_SET_NO", src, 999),
         rev_at_epoch=_int(fields, "REV_AT_EPOCH", src, 0),

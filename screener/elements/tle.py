@@ -8,6 +8,7 @@ from typing import Iterator
 from ..errors import ParseError
 from ..textfile import clean_name
 from ..timeutil import datetime_to_jd
+from .ids import canonical_id, cospar_designator, tle_designator
 from .record import ElementSet, Source, check_elements
 
 _ALPHA5 = "ABCDEFGHJKLMNPQRSTUVWXYZ"  # I and O are not used
@@ -118,7 +119,7 @@ def parse_tle_pair(line1: str, line2: str, name: str = "", source: Source | None
     if not ecc_text.strip().isdigit():
         raise ParseError(f"eccentricity is not numeric: {ecc_text!r}", src2.path, src2.line, 27)
     rec = ElementSet(
-        catalog_id=cat1,
+        catalog_id=canonical_id(cat1),
         name=clean_name(name),
         epoch_jd=jd,
         epoch_fr=fr,
@@ -131,7 +132,7 @@ def parse_tle_pair(line1: str, line2: str, name: str = "", source: Source | None
         bstar_per_earth_radius=_implied_decimal(l1[53:61], "B*", src1, 54),
         ndot_rev_day2=_field(l1, 34, 43, "first derivative of mean motion", src1),
         nddot_rev_day3=_implied_decimal(l1[44:52], "second derivative of mean motion", src1, 45),
-        intl_designator=l1[9:17].strip(),
+        intl_designator=cospar_designator(l1[9:17]),
         classification=l1[7] if l1[7].strip() else "U",
         element_set_no=_field(l1, 65, 68, "element set number", src1, int),
         rev_at_epoch=_field(l2, 64, 68, "revolution number", src2, int),
@@ -166,6 +167,12 @@ def _exp_field(x: float) -> str:
     return f"{sign}{mant:05d}{'-' if exp < 0 else '+'}{abs(exp)}"
 
 
+def _tle_number(catalog_id: str) -> str:
+    """The TLE's 5-column number: zero-padded digits, alpha-5 from 100000 up."""
+    n = catalog_id_to_int(catalog_id)
+    return catalog_id if n is None or n > 339999 else int_to_alpha5(n)
+
+
 def format_tle(rec: ElementSet) -> tuple[str, str]:
     """Format a record as two TLE lines with checksums."""
     from ..timeutil import jd_to_datetime
@@ -174,11 +181,12 @@ def format_tle(rec: ElementSet) -> tuple[str, str]:
     doy = (t - _dt.datetime(t.year, 1, 1, tzinfo=_dt.timezone.utc)).days + 1 + rec.epoch_fr
     ndot = f"{rec.ndot_rev_day2:.8f}".replace("0.", ".", 1)
     ndot = (" " + ndot) if not ndot.startswith("-") else ndot
-    l1 = (f"1 {rec.catalog_id:>5s}{rec.classification} {rec.intl_designator:<8s} "
+    cat = _tle_number(rec.catalog_id)
+    l1 = (f"1 {cat:>5s}{rec.classification} {tle_designator(rec.intl_designator):<8s} "
           f"{t.year % 100:02d}{doy:012.8f} {ndot:>10s} {_exp_field(rec.nddot_rev_day3)} "
           f"{_exp_field(rec.bstar_per_earth_radius)} {rec.ephemeris_type:d} {rec.element_set_no:4d}")
     ecc = f"{rec.eccentricity:.7f}"[2:]
-    l2 = (f"2 {rec.catalog_id:>5s} {rec.inclination_deg:8.4f} {rec.raan_deg:8.4f} {ecc} "
+    l2 = (f"2 {cat:>5s} {rec.inclination_deg:8.4f} {rec.raan_deg:8.4f} {ecc} "
           f"{rec.arg_perigee_deg:8.4f} {rec.mean_anomaly_deg:8.4f} {rec.mean_motion_rev_day:11.8f}"
           f"{rec.rev_at_epoch:5d}")
     return l1 + str(checksum(l1)), l2 + str(checksum(l2))

@@ -35,6 +35,13 @@ def pc_method_keyword(pc_method: str) -> str | None:
     return None
 
 
+def _catalog_name(e: dict, who: str) -> str:
+    """CATALOG_NAME: the input file the object's orbit was read from (the operator's catalog
+    or fleet file), else SCREENER for encounters stored before sources were recorded."""
+    src = e.get(f"{who}_source") or ""
+    return _safe(src) if src else "SCREENER"
+
+
 def cdm_for_encounter(e: dict, maneuverable: dict | None = None, originator: str = "SCREENER"):
     """(header, relative, objects) for write_cdm from an encounter's stored fields."""
     maneuverable = maneuverable or {}
@@ -67,8 +74,11 @@ def cdm_for_encounter(e: dict, maneuverable: dict | None = None, originator: str
         src = e.get(f"{who}_covariance", "")
         objects.append({
             "OBJECT": f"OBJECT{k}", "OBJECT_DESIGNATOR": _safe(e[who]),
-            "CATALOG_NAME": "SCREENER", "OBJECT_NAME": clean_name(e.get(f"{who}_name") or "") or "UNKNOWN",
-            "INTERNATIONAL_DESIGNATOR": "UNKNOWN", "EPHEMERIS_NAME": "NONE",
+            "CATALOG_NAME": _catalog_name(e, who),
+            "OBJECT_NAME": clean_name(e.get(f"{who}_name") or "") or "UNKNOWN",
+            "INTERNATIONAL_DESIGNATOR": e.get(f"{who}_designator") or "UNKNOWN",
+            "EPHEMERIS_NAME": (_safe(e.get(f"{who}_source") or "") or "OEM")
+                              if e.get(f"{who}_orbit") == "OEM" else "NONE",
             "COVARIANCE_METHOD": "DEFAULT" if "assumed" in src else "CALCULATED",
             "MANEUVERABLE": {True: "YES", False: "NO"}.get(maneuverable.get(e[who]), "N/A"),
             "REF_FRAME": "GCRF",

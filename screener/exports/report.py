@@ -1,47 +1,77 @@
-"""A one-page report of a run (plain text or HTML), suitable for e-mail."""
+"""A one-page report of a run (plain text or HTML), suitable for e-mail: one row per series
+(a pair's passes in the window, ranked by its worst pass), then each spacecraft's risk."""
 
 from __future__ import annotations
 
+import datetime as dt
 import html
 
 from .. import CAUTION
+from ..display import fmt_pc, fmt_speed
 from ..risk.attention import LEVELS
+from ..risk.flags import legend_text
+from ..risk.series import CUMULATIVE_RULE, SERIES_PC_RULE, cumulative_by_primary
+from ..timeutil import parse_iso
 
 TOP_N = 15
+HEAD = ("#", "level", "Pc", "primary", "secondary", "secondary id", "worst TCA (UTC)", "miss km",
+        "rel v", "flags", "passes", "trend")
 
 
-def _rows(encs):
-    for n, e in enumerate(encs[:TOP_N], start=1):
-        pc = e.get("pc") or 0.0
-        yield (str(n), e.get("attention", ""), f"{pc:.2e}", e["primary"], e["secondary"], e["tca"][:23],
-               f"{e['miss_km']:.3f}", f"{e['relative_speed_km_s']:.2f}",
-               ("assumed " if e.get("assumed_covariance") else "") + ("dilution" if e.get("dilution_region") else ""),
-               e.get("trend", ""))
+def _when(e: dict, now: dt.datetime) -> str:
+    return e["tca"][:19].replace("T", " ") + (" (past)" if parse_iso(e["tca"]) < now else "")
 
 
-HEAD = ("#", "level", "Pc", "primary", "secondary", "TCA (UTC)", "miss km", "v km/s", "flags", "trend")
+def _rows(series, now):
+    for n, g in enumerate(series[:TOP_N], start=1):
+        e = g.worst
+        yield (str(n), LEVELS[g.level_rank], fmt_pc(g.pc), e.get("primary_name") or e["primary"],
+               e.get("secondary_name") or e["secondary"], e["secondary"], _when(e, now),
+               f"{e['miss_km']:.3f}", fmt_speed(e["relative_speed_km_s"]), e.get("flags", ""),
+               str(g.count), e.get("trend", ""))
 
 
-def render_report(run: dict, encs: list[dict], diff_text: str = "", fmt: str = "text") -> str:
-    counts = {lv: sum(1 for e in encs if e.get("attention") == lv) for lv in LEVELS}
+def _fleet(series) -> list[str]:
+    cum = cumulative_by_primary(series)
+    out = []
+    for pid in sorted(cum, key=lambda p: -cum[p]):
+        mine = [g for g in series if g.primary == pid]
+        w = mine[0].worst
+        out.append(f"{w.get('primary_name') or pid} ({pid}): cumulative Pc {fmt_pc(cum[pid])}, "
+                   f"{len(mine)} series, worst {LEVELS[mine[0].level_rank]} with "
+                   f"{w.get('secondary_name') or w['secondary']} at {w['tca'][:19]}Z")
+    return out
+
+
+def render_report(run: dict, series, n_encounters: int, diff_text: str = "", fmt: str = "text",
+                  now: dt.datetime | None = None) -> str:
+    now = now or dt.datetime.now(dt.timezone.utc)
+    counts = {lv: sum(1 for g in series if LEVELS[g.level_rank] == lv) for lv in LEVELS}
     title = f"screener run {run['id']} - {run['name']}"
-    facts = [f"window {run['window_start_utc']} + {run['window_days']:g} d, {run['volume']}, {run['mode']}",
-             f"{run['n_primaries']} primaries, {run['n_secondaries']} secondaries, {len(encs)} encounters",
-             "attention: " + ", ".join(f"{lv} {counts[lv]}" for lv in LEVELS)]
+    facts = [f"made {run['started_utc']}; window {run['window_start_utc']} + {run['window_days']:g} d, "
+             f"{run['volume']}, {run['mode']}",
+             f"{run['n_primaries']} primaries, {run['n_secondaries']} secondaries, "
+             f"{n_encounters} encounters in {len(series)} series",
+             "series by attention: " + ", ".join(f"{lv} {counts[lv]}" for lv in LEVELS),
+             SERIES_PC_RULE, "flags: " + legend_text()]
     if diff_text:
         facts += diff_text.splitlines()
+    fleet = _fleet(series)
     if fmt == "html":
         e = lambda s: html.escape(s, quote=False)  # noqa: E731
-        rows = "".join("<tr>" + "".join(f"<td>{e(c)}</td>" for c in r) + "</tr>" for r in _rows(encs))
+        rows = "".join("<tr>" + "".join(f"<td>{e(c)}</td>" for c in r) + "</tr>" for r in _rows(series, now))
         return (f"<!doctype html><html><head><meta charset='utf-8'><title>{e(title)}</title></head><body>"
                 f"<p><strong>{e(CAUTION)}</strong></p><h1>{e(title)}</h1>"
                 + "".join(f"<p>{e(f)}</p>" for f in facts)
                 + "<table border='1' cellpadding='3'><tr>" + "".join(f"<th>{e(h)}</th>" for h in HEAD)
-                + f"</tr>{rows}</table><p>{e(CAUTION)}</p></body></html>\n")
-    widths = [3, 7, 9, 12, 12, 23, 8, 6, 16, 10]
+                + f"</tr>{rows}</table><h2>Per spacecraft</h2><p>{e(CUMULATIVE_RULE)}</p><ul>"
+                + "".join(f"<li>{e(f)}</li>" for f in fleet)
+                + f"</ul><p>{e(CAUTION)}</p></body></html>\n")
+    widths = [3, 7, 7, 12, 12, 12, 27, 8, 9, 5, 6, 10]
     lines = [title, CAUTION, ""] + facts + ["", " ".join(h.ljust(w) for h, w in zip(HEAD, widths))]
-    lines += [" ".join(c.ljust(w) for c, w in zip(r, widths)).rstrip() for r in _rows(encs)]
-    if len(encs) > TOP_N:
-        lines.append(f"... {len(encs) - TOP_N} more encounters in the JSON/CSV exports")
+    lines += [" ".join(c[:w].ljust(w) for c, w in zip(r, widths)).rstrip() for r in _rows(series, now)]
+    if len(series) > TOP_N:
+        lines.append(f"... {len(series) - TOP_N} more series in the JSON/CSV exports")
+    lines += ["", f"Per spacecraft ({CUMULATIVE_RULE}):"] + [f"  {f}" for f in fleet]
     lines += ["", CAUTION]
     return "\n".join(lines) + "\n"

@@ -8,11 +8,13 @@ import math
 
 from .. import CAUTION
 
-CSV_FIELDS = ("event_id", "attention", "pc", "log10_pc", "pc_max", "pc_method", "assumed_covariance",
-              "dilution_region", "covariance_source", "hbr_m", "primary", "primary_name", "secondary",
-              "secondary_name", "tca", "miss_km", "radial_km", "in_track_km", "cross_track_km",
-              "relative_speed_km_s", "crossing_angle_deg", "primary_alt_km", "secondary_alt_km",
-              "primary_elset_age_days", "secondary_elset_age_days", "trend", "change")
+CSV_FIELDS = ("event_id", "attention", "pc", "log10_pc", "pc_max", "pc_method", "flags",
+              "assumed_covariance", "dilution_region", "short_encounter_ok", "covariance_source",
+              "hbr_m", "series", "series_count", "worst_of_series", "primary", "primary_name",
+              "primary_designator", "secondary", "secondary_name", "secondary_designator", "tca",
+              "miss_km", "radial_km", "in_track_km", "cross_track_km", "relative_speed_km_s",
+              "crossing_angle_deg", "primary_alt_km", "secondary_alt_km", "primary_elset_age_days",
+              "secondary_elset_age_days", "trend", "change")
 
 
 def _clean(x):

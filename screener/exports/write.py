@@ -10,6 +10,9 @@ import tempfile
 
 from ..errors import ScreenerError
 from ..risk.attention import LEVEL_RANK
+from ..risk.flags import PROXIMITY, encounter_flags
+from ..risk.series import (CUMULATIVE_RULE, SERIES_PC_RULE, STORED, cumulative_by_primary,
+                           describe_series, group)
 from ..store import queries
 from .cdm_out import write_event_cdm
 from .report import render_report
@@ -19,9 +22,34 @@ CDM_LEVEL = {"none": -1, "act": LEVEL_RANK["act"], "watch": LEVEL_RANK["watch"],
 
 
 def run_encounters(store, run_id: int) -> list[dict]:
-    rows = store.conn.execute("SELECT id, data_json FROM encounters WHERE run_id=? ORDER BY pc DESC, "
-                              "miss_km", (run_id,)).fetchall()
-    return [{**json.loads(r["data_json"]), "encounter_id": r["id"]} for r in rows]
+    """A run's encounters as exported, ranked, each with its flags and its series."""
+    rows = store.conn.execute("SELECT id, data_json, flags FROM encounters WHERE run_id=? ORDER BY "
+                              "pc DESC, miss_km", (run_id,)).fetchall()
+    encs = [{**json.loads(r["data_json"]), "encounter_id": r["id"]} for r in rows]
+    for e, r in zip(encs, rows):
+        e["flags"] = r["flags"] if r["flags"] is not None else stored_flags(e)
+    return encs
+
+
+def stored_flags(e: dict) -> str:
+    """Flags of an encounter stored before schema 3 kept them."""
+    return encounter_flags(bool(e.get("assumed_covariance")), bool(e.get("dilution_region")),
+                           e.get("short_encounter_ok"))
+
+
+def run_series(encs: list[dict]) -> list:
+    """The run's series (most urgent first); each encounter gets its series key, its series'
+    pass count and (for a series' worst pass) worst_of_series = True; the series' P flag goes
+    on every member."""
+    series = group(encs, STORED)
+    for g in series:
+        for e in g.members:
+            e["series"], e["series_count"] = g.key, g.count
+            e["worst_of_series"] = e is g.worst
+            e["proximity"] = g.proximity
+            if g.proximity and PROXIMITY not in e["flags"]:
+                e["flags"] += PROXIMITY
+    return series
 
 
 MARKER = ".screener-export.json"     # which store and run a folder of exports belongs to
@@ -36,8 +64,10 @@ def _owner(folder: str) -> dict | None:
 
 
 def export_run(store, run_id: int | None, folder: str, json_out=True, csv_out=True, cdm="act",
-               report="text", diff_text: str = "") -> list[str]:
-    """Write the chosen exports into `folder`; returns the paths written.  Everything is
+               report="text", diff_text: str = "", cdm_per: str = "series") -> list[str]:
+    """Write the chosen exports into `folder`; returns the paths written.  CDMs: one per
+    series (its worst pass) at or above the `cdm` level, or one per encounter with
+    cdm_per = "encounter".  Everything is
     written into a fresh sibling folder first and renamed into place, so a reader never sees
     a half export and two stores never mix their files: an existing folder is replaced only
     when it holds an earlier export of the same store and run, and refused otherwise."""
@@ -59,7 +89,7 @@ def export_run(store, run_id: int | None, folder: str, json_out=True, csv_out=Tr
     except OSError as exc:
         raise ScreenerError(f"cannot create {folder}: {exc.strerror}") from None
     try:
-        written = _write_all(store, info, tmp, json_out, csv_out, cdm, report, diff_text)
+        written = _write_all(store, info, tmp, json_out, csv_out, cdm, report, diff_text, cdm_per)
         with open(os.path.join(tmp, MARKER), "w", encoding="utf-8") as fh:
             json.dump(owner, fh)
         old = None
@@ -78,9 +108,13 @@ def export_run(store, run_id: int | None, folder: str, json_out=True, csv_out=Tr
     return [os.path.join(folder, os.path.relpath(p, tmp)) for p in written]
 
 
-def _write_all(store, info, folder, json_out, csv_out, cdm, report, diff_text) -> list[str]:
+def _write_all(store, info, folder, json_out, csv_out, cdm, report, diff_text, cdm_per) -> list[str]:
     encs = run_encounters(store, info.id)
-    head = {"run": {k: v for k, v in dataclasses.asdict(info).items() if k not in ("config", "stats")}}
+    series = run_series(encs)
+    head = {"run": {k: v for k, v in dataclasses.asdict(info).items() if k not in ("config", "stats")},
+            "series_rule": SERIES_PC_RULE, "cumulative_rule": CUMULATIVE_RULE,
+            "series": [describe_series(g, lambda e: e["tca"]) for g in series],
+            "cumulative_pc_by_primary": cumulative_by_primary(series)}
     written = []
     maneuverable = {k: v.get("maneuverable") for k, v in info.config.get("members", {}).items()}
     if json_out:
@@ -92,7 +126,8 @@ def _write_all(store, info, folder, json_out, csv_out, cdm, report, diff_text) -
         write_csv(p, encs)
         written.append(p)
     limit = CDM_LEVEL[cdm]
-    picked = [e for e in encs if LEVEL_RANK.get(e.get("attention"), 2) <= limit]
+    candidates = encs if cdm_per == "encounter" else [g.worst for g in series]
+    picked = [e for e in candidates if LEVEL_RANK.get(e.get("attention"), 2) <= limit]
     if picked:
         cdm_dir = os.path.join(folder, "cdm")
         os.makedirs(cdm_dir, exist_ok=True)
@@ -100,6 +135,6 @@ def _write_all(store, info, folder, json_out, csv_out, cdm, report, diff_text) -
     if report != "none":
         p = os.path.join(folder, "report.html" if report == "html" else "report.txt")
         with open(p, "w", encoding="utf-8") as fh:
-            fh.write(render_report(dataclasses.asdict(info), encs, diff_text, report))
+            fh.write(render_report(dataclasses.asdict(info), series, len(encs), diff_text, report))
         written.append(p)
     return written

@@ -12,6 +12,7 @@ from ..elements import ElementSet, Oem, load_elements, read_oem, stale_records
 from ..elements.catalog import expand_paths
 from ..errors import ScreenerError
 from ..textfile import open_regular
+from .identity import canonical_config, identities, tie_oems
 from ..timeutil import iso_z, jd_to_datetime
 
 MAX_LISTED = 20
@@ -26,6 +27,7 @@ class Inputs:
     history: dict[str, list[ElementSet]]
     files: list[dict]                     # {"path", "sha256", "bytes", "role"}
     bad_records: int = 0
+    ids: dict = dataclasses.field(default_factory=dict)   # object id -> identity.Identity
 
 
 def file_digest(path: str) -> dict:
@@ -106,11 +108,14 @@ def load_inputs(cfg: Config, jd0: float, fr0: float, warn: Warn) -> Inputs:
         primaries, oems, p_rep, p_files = _read(cfg.fleet_files, cfg.strict, "fleet", warn)
         files += p_files
     if oems:  # an own-ship ephemeris wins over an element set of the same object
+        tie_oems(oems, primaries, catalog)
         oem_ids = {o.object_id for o in oems}
-        dropped = [r for r in primaries if r.catalog_id in oem_ids or r.intl_designator in oem_ids]
+        dropped = [r for r in primaries if r.catalog_id in oem_ids]
         for r in dropped:
             warn(f"{r.catalog_id} {r.name}: using its OEM ephemeris instead of the element set")
         primaries = [r for r in primaries if r not in dropped]
+    ids = identities(primaries, oems, catalog)
+    canonical_config(cfg, ids, warn)
     for rec, age in stale_records(primaries + catalog, jd0, fr0, cfg.max_elset_age_days):
         warn(f"stale: {rec.catalog_id} {rec.name} element set is {age:.1f} days old at the "
              f"screening start (limit {cfg.max_elset_age_days:g}); screened, but check it")
@@ -119,4 +124,4 @@ def load_inputs(cfg: Config, jd0: float, fr0: float, warn: Warn) -> Inputs:
         if rep:
             history.update(rep.history)
     bad = sum(len(r.errors) for r in (cat_rep, p_rep) if r)
-    return Inputs(catalog, primaries, oems, history, files, bad)
+    return Inputs(catalog, primaries, oems, history, files, bad, ids)

@@ -22,6 +22,7 @@ from ..risk.covariance import CovarianceSources
 from ..screening import ScreeningRequest, Volume, screen
 from ..store.db import describe_sqlite_error
 from ..timeutil import datetime_to_jd, iso_z, parse_start
+from .identity import describe
 from .inputs import Inputs, load_inputs
 
 Progress = Callable[[str, int, int], None]
@@ -129,6 +130,7 @@ def execute(cfg: Config, store=None, progress: Progress | None = None, cancel=No
         finally:
             if client is not None:
                 client.close()
+        describe(result.encounters, inputs.ids)
         note(f"screening: {len(result.encounters)} encounters, {result.stats.get('wall_s', 0):.1f} s")
         for oid, why in sorted(result.unusable.items()):
             note(f"not screened: {oid}: {why}")

@@ -12,7 +12,7 @@ from ..screening.encounter import Encounter
 from .assess import assess
 from .attention import Thresholds
 from .covariance import CovarianceSources
-from .pc import cumulative
+from .flags import encounter_flags
 
 # Common practice: hard-body radius = sum of the two circumscribing-sphere radii.  With
 # nothing configured each object is taken as a 5 m sphere, so the default HBR is 10 m.
@@ -77,15 +77,8 @@ def attach_risk(encounters: Sequence[Encounter], sources: CovarianceSources,
                               "combined uncertainty region")
             if len(e.relative_path_km) >= 2:
                 _path_pc(e, est, out, hbr_m, thresholds)
+        out["flags"] = encounter_flags(assumed_any, bool(out["dilution_region"]), short_ok)
         e.risk = out
-
-
-def cumulative_by_primary(encounters: Sequence[Encounter]) -> dict[str, float]:
-    """1 - prod(1 - Pc_i) over each primary's encounters in the window."""
-    by: dict[str, list[float]] = {}
-    for e in encounters:
-        by.setdefault(e.primary, []).append(e.pc)
-    return {k: cumulative(v) for k, v in sorted(by.items())}
 
 
 def _path_pc(e: Encounter, est, out: dict, hbr_m: float, thresholds: Thresholds) -> None:

@@ -44,6 +44,7 @@ class Encounter:
     range_profile_km: tuple = ()    # PROFILE_SAMPLES ranges, evenly spaced over the span
     relative_path_km: tuple = ()    # secondary - primary (TEME) at the profile's instants
     risk: dict = dataclasses.field(default_factory=dict)   # filled by the risk layer
+    identity: dict = dataclasses.field(default_factory=dict)  # designators and orbit sources
 
     @property
     def pc(self) -> float:
@@ -79,6 +80,7 @@ class Encounter:
             "secondary_state_teme": [*self.secondary_r_km, *self.secondary_v_km_s],
             "profile_half_s": self.profile_half_s,
             "range_profile_km": list(self.range_profile_km),
+            **self.identity,
             **self.risk,
         }
 

@@ -14,7 +14,7 @@ import urllib.parse
 from ..environment import env_float
 from ..errors import ScreenerError
 
-SCHEMA_VERSION = 2
+SCHEMA_VERSION = 3
 ENV_STORE = "SCREENER_STORE"
 ENV_LOCK_WAIT = "SCREENER_LOCK_WAIT_S"
 DEFAULT_LOCK_WAIT_S = 60.0      # how long a writer waits for another run's commit to finish
@@ -96,6 +96,11 @@ MIGRATIONS: list[str] = [
     # line1/line2 stay NULL where no valid TLE can be written (ids above 339999)
     """
     ALTER TABLE elsets ADD COLUMN omm_json TEXT;
+    """,
+    # 2 -> 3: each encounter's flags (A, D, S; see risk/flags.py) as shown in every output;
+    # NULL for encounters stored before, which readers derive from the other columns
+    """
+    ALTER TABLE encounters ADD COLUMN flags TEXT;
     """,
 ]
 

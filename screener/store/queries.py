@@ -10,7 +10,7 @@ from .db import Store
 
 LIST_COLUMNS = ("id, event_id, pc, log10_pc, pc_max, miss_km, tca_unix_s, tca_utc, relative_speed_km_s,"
                 " primary_id, primary_name, secondary_id, secondary_name, attention, attention_rank,"
-                " trend, change, dilution, covariance_source")
+                " trend, change, dilution, covariance_source, flags")
 
 
 @dataclasses.dataclass(frozen=True, slots=True)
@@ -34,6 +34,7 @@ class EncounterRow:
     change: str
     dilution: int
     covariance_source: str
+    flags: str | None          # None for encounters stored before schema 3: see row_flags
 
 
 @dataclasses.dataclass(frozen=True)
@@ -94,6 +95,14 @@ def encounter_detail(store: Store, encounter_id: int) -> dict:
     d["run_id"] = r["run_id"]
     d["encounter_id"] = encounter_id
     return d
+
+
+def series_members(store: Store, run_id: int, primary_id: str, secondary_id: str) -> list[EncounterRow]:
+    """Every pass of one pair in one run (its series), in TCA order."""
+    cur = store.conn.execute(f"SELECT {LIST_COLUMNS} FROM encounters WHERE run_id=? AND primary_id=? "
+                             "AND secondary_id=? ORDER BY tca_unix_s", (run_id, primary_id, secondary_id))
+    cur.row_factory = None
+    return [EncounterRow(*t) for t in cur]
 
 
 def event_history(store: Store, event_id: int) -> list[dict]:

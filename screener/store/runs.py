@@ -35,7 +35,7 @@ def unix_s(jd: float, fr: float) -> float:
 def tle_writable(rec) -> bool:
     """A TLE's 5-column number field holds catalog numbers up to alpha-5 Z9999 (339999)."""
     n = catalog_id_to_int(rec.catalog_id)
-    return n is not None and n <= SGP4_MAX_SATNUM and len(rec.catalog_id) <= 5
+    return n is not None and n <= SGP4_MAX_SATNUM
 
 
 def _elset_rows(run_id, req, encounters):
@@ -103,14 +103,14 @@ def commit_run(store: Store, *, name: str, config_snapshot: dict, inputs_files: 
                          iso_z(e.tca, 6), t, e.miss_km, e.radial_km, e.in_track_km, e.cross_track_km,
                          e.relative_speed_km_s, rk["pc"], rk.get("log10_pc"), rk["pc_max"],
                          rk["attention"], rank, rk["covariance_source"], int(rk["dilution_region"]),
-                         tr, ch, json.dumps(data, default=_jsonable)))
+                         tr, ch, json.dumps(data, default=_jsonable), rk.get("flags", "")))
         _hold("after-events")
         conn.executemany(
             "INSERT INTO encounters (run_id, event_id, primary_id, primary_name, secondary_id,"
             " secondary_name, tca_utc, tca_unix_s, miss_km, radial_km, in_track_km, cross_track_km,"
             " relative_speed_km_s, pc, log10_pc, pc_max, attention, attention_rank,"
-            " covariance_source, dilution, trend, change, data_json)"
-            " VALUES (?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?)", rows)
+            " covariance_source, dilution, trend, change, data_json, flags)"
+            " VALUES (?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?)", rows)
         _hold("before-commit")
         diff = run_diff(conn, run_id, name, w0)
         conn.execute("COMMIT")

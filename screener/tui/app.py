@@ -126,13 +126,32 @@ class ScreenerApp(App):
             self.notify(str(exc), severity="error", timeout=10, markup=False)
             return None
 
+    def outputs_folder(self, store) -> str:
+        """Where the TUI writes files: the configuration's [outputs] folder (--config, else the
+        latest run's configuration), else an exports folder beside the store."""
+        from ..config import load_config
+        from ..store import queries
+
+        path = self.config_path
+        if path is None:
+            info = queries.run(store)
+            path = info.config.get("path") if info else None
+        if path:
+            try:
+                folder = load_config(path).outputs.folder
+            except ScreenerError:
+                folder = None
+            if folder:
+                return folder
+        return os.path.join(store.folder, "exports")
+
     def export_cdm(self, encounter_id: int) -> str | None:
         from ..exports import write_event_cdm
         from ..store import queries
 
         store = self.open_store()
         d = queries.encounter_detail(store, encounter_id)
-        folder = os.path.join(store.folder, "exports", f"run-{d['run_id']}", "cdm")
+        folder = os.path.join(self.outputs_folder(store), f"run-{d['run_id']}", "cdm")
         try:
             os.makedirs(folder, exist_ok=True)
             info = queries.run(store, d["run_id"])

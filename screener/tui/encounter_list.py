@@ -3,7 +3,9 @@ view, so a run of 50,000 encounters costs no more to show than one of fifty."""
 
 from __future__ import annotations
 
+import dataclasses
 import time
+from typing import Callable
 
 from rich.segment import Segment
 from rich.style import Style
@@ -14,55 +16,122 @@ from textual.scroll_view import ScrollView
 from textual.strip import Strip
 from textual.widgets import Static
 
+from ..display import fmt_log10, fmt_pc, fmt_speed
+from ..risk.attach import SLOW_PASS_KM_S
+from ..risk.attention import LEVELS
+from ..risk.flags import PROXIMITY, encounter_flags
 from ..store.queries import EncounterRow
-from .model import RunView, fmt_log10, fmt_pc, fmt_until
+from .model import Item, RunView, fmt_until
 
 TREND_SHORT = {"converging": "conv", "growing": "grow", "stable": "stab", "new": "new"}
+BIG = 10**6
 
-# (title, width, right-aligned, cell text, shown from this width, shown below this width)
+
+def _name(name: str, oid: str) -> str:
+    return name or oid
+
+
+def _count(it: Item, now: float) -> str:
+    """A series' pass count; a pass of an expanded series shows a tree mark instead."""
+    if it.member:
+        return "\u2514" if it.series is not None and it.series.count > 1 else "1"
+    return str(it.count)
+
+
+def _miss(it: Item, now: float) -> str:
+    """Miss distance in whole metres (the list's unit; the event view gives decimals)."""
+    return f"{it.row.miss_km * 1e3:.0f}"
+
+
+def item_flags(it: Item) -> str:
+    """The stored flags (A D S, risk/flags.py) plus P for a proximity series."""
+    return row_flags(it.row) + (PROXIMITY if it.proximity else "")
+
+
+def row_flags(r: EncounterRow) -> str:
+    if r.flags is not None:
+        return r.flags
+    # stored before schema 3 kept flags: the same rule from the list columns
+    return encounter_flags("assumed" in r.covariance_source, bool(r.dilution),
+                           False if r.relative_speed_km_s < SLOW_PASS_KM_S else None)
+
+
+@dataclasses.dataclass(frozen=True)
+class Column:
+    title: str
+    width: int
+    right: bool
+    cell: Callable[[Item, float], str]
+    lo: int = 0            # shown from this list width ...
+    hi: int = BIG          # ... and below this one
+
+
 COLUMNS = (
-    ("level", 7, False, lambda r, now: r.attention, 0, 10**6),
-    ("Pc", 7, True, lambda r, now: fmt_pc(r.pc), 0, 10**6),
-    ("log10", 5, True, lambda r, now: fmt_log10(r.pc), 100, 10**6),
-    ("miss km", 7, True, lambda r, now: f"{r.miss_km:.3f}", 0, 10**6),
-    ("TCA UTC", 11, False, lambda r, now: r.tca_utc[5:16].replace("T", " "), 0, 100),
-    ("TCA UTC", 14, False, lambda r, now: r.tca_utc[5:19].replace("T", " "), 100, 10**6),
-    ("to TCA", 6, True, lambda r, now: fmt_until(r.tca_unix_s - now), 0, 10**6),
-    ("km/s", 5, True, lambda r, now: f"{r.relative_speed_km_s:.2f}", 0, 10**6),
-    ("primary", 9, False, lambda r, now: r.primary_id, 0, 10**6),
-    ("secondary", 9, False, lambda r, now: r.secondary_id, 0, 10**6),
-    ("trnd", 4, False, lambda r, now: TREND_SHORT.get(r.trend, r.trend), 0, 120),
-    ("trend", 10, False, lambda r, now: r.trend, 120, 10**6),
-    ("change", 12, False, lambda r, now: r.change, 140, 10**6),
-    ("flg", 3, False, lambda r, now: flags(r), 0, 10**6),
-    ("secondary name", 16, False, lambda r, now: r.secondary_name, 160, 10**6),
+    Column("level", 7, False, lambda it, now: LEVELS[it.level_rank]),
+    Column("Pc", 7, True, lambda it, now: fmt_pc(it.row.pc)),
+    Column("log10", 5, True, lambda it, now: fmt_log10(it.row.pc), 100),
+    Column("miss m", 6, True, _miss),
+    Column("TCA UTC", 8, False, lambda it, now: it.row.tca_utc[8:16].replace("T", " "), 0, 90),
+    Column("TCA UTC", 11, False, lambda it, now: it.row.tca_utc[5:16].replace("T", " "), 90, 100),
+    Column("TCA UTC", 14, False, lambda it, now: it.row.tca_utc[5:19].replace("T", " "), 100),
+    Column("to TCA", 6, True, lambda it, now: fmt_until(it.row.tca_unix_s - now)),
+    Column("rel v", 9, True, lambda it, now: fmt_speed(it.row.relative_speed_km_s)),
+    Column("primary", 10, False, lambda it, now: _name(it.row.primary_name, it.row.primary_id), 0, 90),
+    Column("primary", 11, False, lambda it, now: _name(it.row.primary_name, it.row.primary_id), 90, 100),
+    Column("primary", 12, False, lambda it, now: _name(it.row.primary_name, it.row.primary_id), 100),
+    Column("secondary", 9, False, lambda it, now: _name(it.row.secondary_name, it.row.secondary_id), 0, 90),
+    Column("secondary", 10, False, lambda it, now: _name(it.row.secondary_name, it.row.secondary_id), 90, 100),
+    Column("secondary", 14, False, lambda it, now: _name(it.row.secondary_name, it.row.secondary_id), 100),
+    Column("n", 3, True, _count),
+    Column("flg", 4, False, lambda it, now: item_flags(it)),
+    Column("sec. id", 9, False, lambda it, now: it.row.secondary_id, 120),
+    Column("trend", 10, False, lambda it, now: it.row.trend, 120),
+    Column("change", 12, False, lambda it, now: it.row.change, 140),
+    Column("prim. id", 10, False, lambda it, now: it.row.primary_id, 160),
 )
+MARKER_W = 1           # column 0 holds the cursor marker (">" on the cursor row)
 
 
-def flags(r: EncounterRow) -> str:
-    """A: assumed covariance; D: dilution region; S: slow pass under 0.1 km/s (2-D Pc doubtful)."""
-    return (("A" if "assumed" in r.covariance_source else "") + ("D" if r.dilution else "")
-            + ("S" if r.relative_speed_km_s < 0.1 else ""))
+def visible_columns(width: int) -> list[Column]:
+    """The columns shown in a list `width` characters wide (marker included), in order."""
+    return [c for c in COLUMNS if c.lo <= width < c.hi]
 
 
-def visible_columns(width: int):
-    return [c for c in COLUMNS if c[4] <= width < c[5]]
+def layout(width: int) -> list[tuple[Column, int]]:
+    """(column, first character) of each visible column: titles and rows both come from
+    this one layout, so a title always stands over its column."""
+    out, x = [], MARKER_W
+    for c in visible_columns(width):
+        if x + c.width > width:
+            break
+        out.append((c, x))
+        x += c.width + 1
+    return out
 
 
-def format_row(r: EncounterRow | None, now: float, width: int) -> str:
-    cells = []
-    for title, w, right, fn, _lo, _hi in visible_columns(width):
-        text = title if r is None else str(fn(r, now))
-        text = text[:w]
-        cells.append(text.rjust(w) if right else text.ljust(w))
-    return " ".join(cells)[:width].ljust(width)
+def format_line(it: Item | None, now: float, width: int, marker: str = " ") -> str:
+    """One list line of exactly `width` characters: the marker, then each column's cell (the
+    titles when `it` is None)."""
+    chars = [marker[:1] or " "]
+    for c, x in layout(width):
+        text = c.title if it is None else str(c.cell(it, now))
+        text = text[:c.width]
+        chars.append(" " * (x - len("".join(chars))))
+        chars.append(text.rjust(c.width) if c.right else text.ljust(c.width))
+    return "".join(chars)[:width].ljust(width)
 
 
 class ColumnHeader(Static):
-    """The list's column titles (kept out of the scrolling region)."""
+    """The list's column titles (kept out of the scrolling region), laid out for the list's
+    own width, so a title stands over its column whether or not a scrollbar is shown."""
 
     def render(self):
-        return format_row(None, 0.0, max(1, (self.size.width or 80) - 2))
+        try:
+            width = self.screen.query_one(EncounterList).size.width
+        except Exception:  # noqa: BLE001 - before the list is mounted
+            width = 0
+        width = width or max(1, self.size.width)
+        return format_line(None, 0.0, width)
 
 
 class EncounterList(ScrollView, can_focus=True):
@@ -74,6 +143,8 @@ class EncounterList(ScrollView, can_focus=True):
         Binding("home,g", "jump(0)", "First", show=False),
         Binding("end,G", "jump(-1)", "Last", show=False),
         Binding("enter", "open", "Open event"),
+        Binding("right,plus", "screen.expand(True)", "Expand series (every pass)", show=False),
+        Binding("left,minus", "screen.expand(False)", "Collapse series", show=False),
     ]
     COMPONENT_CLASSES = {"encounter-list--cursor", "encounter-list--act", "encounter-list--watch"}
 
@@ -81,6 +152,8 @@ class EncounterList(ScrollView, can_focus=True):
         def __init__(self, row: EncounterRow) -> None:
             super().__init__()
             self.row = row
+
+
 
     class Moved(Message):
         def __init__(self, row: EncounterRow | None) -> None:
@@ -115,16 +188,31 @@ class EncounterList(ScrollView, can_focus=True):
             return None
         return self.model.row(self.cursor)
 
+    @property
+    def current_item(self) -> Item | None:
+        if not self.model or not len(self.model):
+            return None
+        return self.model.item(self.cursor)
+
     def on_resize(self) -> None:
         self.virtual_size = Size(self.size.width, len(self.model) if self.model else 0)
+        self._refresh_header()
+
+    def _refresh_header(self) -> None:
+        for h in self.screen.query(ColumnHeader):
+            h.refresh()
+
+    def watch_show_vertical_scrollbar(self, *_):
+        self._refresh_header()
 
     def render_line(self, y: int) -> Strip:
         t0 = time.perf_counter()
         width = self.size.width
         pos = int(self.scroll_offset.y) + y
         if not self.model or pos >= len(self.model):
-            return Strip([Segment(" " * width)], width)
-        r = self.model.row(pos)
+            return Strip([Segment(" " * width, self.rich_style)], width)
+        it = self.model.item(pos)
+        r = it.row
         style = self.rich_style
         if pos == self.cursor:
             style = self.get_component_rich_style("encounter-list--cursor")
@@ -132,9 +220,8 @@ class EncounterList(ScrollView, can_focus=True):
             style = style + self.get_component_rich_style("encounter-list--act")
         elif r.attention == "watch":
             style = style + self.get_component_rich_style("encounter-list--watch")
-        text = format_row(r, self.now_unix_s, width)
-        marker = ">" if pos == self.cursor else " "
-        strip = Strip([Segment(marker, style), Segment(text[: width - 1], style)], width)
+        text = format_line(it, self.now_unix_s, width, ">" if pos == self.cursor else " ")
+        strip = Strip([Segment(text, style)], width)
         self.render_s_max = max(self.render_s_max, time.perf_counter() - t0)
         return strip
 
@@ -177,4 +264,4 @@ class EncounterList(ScrollView, can_focus=True):
                 self._move_to(pos)
 
 
-__all__ = ["EncounterList", "ColumnHeader", "format_row", "visible_columns", "Style"]
+__all__ = ["EncounterList", "ColumnHeader", "format_line", "layout", "visible_columns", "Style"]

@@ -14,7 +14,9 @@ from textual.widgets import Footer, Static
 from ..propagation.orbit import osculating
 from ..risk.pc import chan_is_reliable, pc_chan
 from ..store import queries
-from .model import fmt_pc, fmt_until, summary_line
+from ..display import PC_DISPLAY_FLOOR, fmt_pc
+from ..risk.series import PROXIMITY_SPEED_KM_S, ROWS, SERIES_PC_RULE, group
+from .model import fmt_ago, summary_line
 from .plots import history_lines, plane_plot, range_plot
 from .widgets import CautionBar
 
@@ -30,43 +32,78 @@ def _orbit_line(state) -> str:
             f"i {o.inclination_deg:.2f} deg, period {o.size.period_s / 60.0:.2f} min")
 
 
-def facts_text(d: dict, now_unix_s: float, tca_unix_s: float) -> str:
+def _method(d: dict) -> str:
+    """The Pc method's name, without the Chan remark (the Chan line gives it once)."""
+    return d.get("pc_method", "?").split(" (Chan not used")[0]
+
+
+def series_text(d: dict, members, now_unix_s: float) -> list[str]:
+    """What the pair's other passes in this window add: count, span, closest pass, and the
+    proximity label for a slow recurring pair."""
+    if len(members) <= 1:
+        return ["series: this is the pair's only pass in the window"]
+    closest = min(members, key=lambda r: r.miss_km)
+    worst = max(members, key=lambda r: (r.pc, -r.miss_km))
+    lines = [f"series: {len(members)} passes of this pair in the window, "
+             f"{members[0].tca_utc[5:16].replace('T', ' ')}Z to {members[-1].tca_utc[5:16].replace('T', ' ')}Z "
+             f"({sum(1 for r in members if r.tca_unix_s < now_unix_s)} past)",
+             f"  closest {closest.miss_km * 1e3:.0f} m at {closest.tca_utc[5:19].replace('T', ' ')}Z; "
+             f"series Pc {fmt_pc(worst.pc)} = the highest pass Pc"
+             + (" (this pass)" if worst.id == d.get("encounter_id") else
+                f" (at {worst.tca_utc[5:16].replace('T', ' ')}Z)"),
+             f"  {SERIES_PC_RULE}"]
+    if group(members, ROWS)[0].proximity:
+        slow = sum(1 for r in members if r.relative_speed_km_s < PROXIMITY_SPEED_KM_S)
+        gaps = [b.tca_unix_s - a.tca_unix_s for a, b in zip(members, members[1:])]
+        gaps.sort()
+        lines.append(f"  PROXIMITY PAIR (co-orbital): {slow} of {len(members)} passes slower than "
+                     f"{PROXIMITY_SPEED_KM_S * 1e3:.0f} m/s, recurring every {gaps[len(gaps) // 2] / 60:.0f} "
+                     f"min; minimum range over the window {closest.miss_km * 1e3:.0f} m")
+    return lines
+
+
+def facts_text(d: dict, now_unix_s: float, tca_unix_s: float, members=()) -> str:
     pc = d.get("pc") or 0.0
     xm, ym, sx, sy, hbr = (d.get(k) for k in ("plane_xm_m", "plane_ym_m", "plane_sx_m", "plane_sy_m", "hbr_m"))
-    chan_line = ""
-    if None not in (xm, ym, sx, sy, hbr):
-        ok, why = chan_is_reliable(xm, ym, sx, sy, hbr)
-        chan = pc_chan(xm, ym, sx, sy, hbr)
-        chan_line = f"  Chan series          {fmt_pc(chan)}" + ("" if ok else f"  (not used: {why})")
     quad = d.get("pc_quadrature", 0.0)          # computed once, by the risk layer
+    two_d = d.get("pc_2d", quad)
     lines = [
-        f"TCA {d['tca']}  ({fmt_until(tca_unix_s - now_unix_s)} from now)",
+        f"TCA {d['tca']}  ({fmt_ago(tca_unix_s - now_unix_s)})",
         f"miss {d['miss_km'] * 1e3:.1f} m:  radial {d['radial_km'] * 1e3:.1f} m, in-track "
         f"{d['in_track_km'] * 1e3:.1f} m, cross-track {d['cross_track_km'] * 1e3:.1f} m",
-        f"relative speed {d['relative_speed_km_s']:.3f} km/s, crossing angle {d['crossing_angle_deg']:.1f} deg",
+        f"relative speed {fmt_speed_fine(d['relative_speed_km_s'])}, crossing angle "
+        f"{d['crossing_angle_deg']:.1f} deg",
+        *series_text(d, members, now_unix_s),
         "",
-        f"primary   {d['primary']} {d['primary_name']}",
-        f"  altitude at TCA {d['primary_alt_km']:.1f} km; element set {d['primary_elset_age_days']:.1f} d old",
-        f"  {_orbit_line(d['primary_state_teme'])}",
-        f"  covariance: {d.get('primary_covariance', '?')}",
-        f"  sigma R/I/C {', '.join(f'{x * 1e3:.0f}' for x in d.get('primary_sigma_rtn_km', []))} m",
-        f"secondary {d['secondary']} {d['secondary_name']}",
-        f"  altitude at TCA {d['secondary_alt_km']:.1f} km; element set {d['secondary_elset_age_days']:.1f} d old",
-        f"  {_orbit_line(d['secondary_state_teme'])}",
-        f"  covariance: {d.get('secondary_covariance', '?')}",
-        f"  sigma R/I/C {', '.join(f'{x * 1e3:.0f}' for x in d.get('secondary_sigma_rtn_km', []))} m",
-        "",
-        f"Pc {fmt_pc(pc)} (log10 {math.log10(pc):.2f})  by {d.get('pc_method', '?')}" if pc > 0 else
-        f"Pc 0 by {d.get('pc_method', '?')}",
-        f"  2-D quadrature       {fmt_pc(quad)}",
     ]
+    for who in ("primary", "secondary"):
+        desig = d.get(f"{who}_designator") or ""
+        orbit = d.get(f"{who}_orbit") or "element set"
+        src = d.get(f"{who}_source") or ""
+        age = d.get(f"{who}_elset_age_days")
+        lines += [
+            f"{who:<9} {d[f'{who}_name'] or d[who]} ({d[who]}{', ' + desig if desig else ''})",
+            f"  altitude at TCA {d[f'{who}_alt_km']:.1f} km; {orbit}"
+            + (f" from {src}" if src else "") + (f", {age:.1f} d old" if age is not None else ""),
+            f"  {_orbit_line(d[f'{who}_state_teme'])}",
+            f"  covariance: {d.get(f'{who}_covariance', '?')}",
+            f"  sigma radial/in-track/cross-track "
+            f"{', '.join(f'{x * 1e3:.0f}' for x in d.get(f'{who}_sigma_rtn_km', []))} m",
+        ]
+    lines += ["", f"Pc {fmt_pc(pc, 2)}" + (f" (log10 {math.log10(pc):.2f})" if pc >= PC_DISPLAY_FLOOR else "")
+              + f"  by {_method(d)}"]
     if "pc_2d" in d:
-        lines.insert(-1, f"  along-path MC 99 %   {fmt_pc(d['pc_mc_lo99'])} to {fmt_pc(d['pc_mc_hi99'])}"
-                         f"  (2-D short-encounter value {fmt_pc(d['pc_2d'])})")
-    if chan_line:
-        lines.append(chan_line)
+        lines.append(f"  Monte Carlo 99 %       {fmt_pc(d['pc_mc_lo99'])} to {fmt_pc(d['pc_mc_hi99'])}")
+    lines.append(f"  2-D quadrature         {fmt_pc(quad)}" + ("  (short-encounter value, doubtful here)"
+                                                          if "pc_2d" in d else ""))
+    if None not in (xm, ym, sx, sy, hbr):
+        ok, why = chan_is_reliable(xm, ym, sx, sy, hbr)
+        lines.append(f"  Chan series            {fmt_pc(pc_chan(xm, ym, sx, sy, hbr))}"
+                     + ("" if ok else f"  (not used: {why})"))
     lines += [
-        f"  max Pc (size scaled) {fmt_pc(d.get('pc_max', 0.0))}   any shape {fmt_pc(d.get('pc_max_any_shape', 0.0))}",
+        f"  max 2-D Pc, covariance scaled   {fmt_pc(d.get('pc_max', 0.0))}  (bounds the 2-D value "
+        f"{fmt_pc(two_d)}" + (", not the Monte Carlo Pc)" if "pc_2d" in d else ")"),
+        f"  max 2-D Pc, any covariance shape {fmt_pc(d.get('pc_max_any_shape', 0.0))}",
         f"  hard-body radius {hbr:g} m; covariance source: {d.get('covariance_source', '?')}",
         f"  attention {d.get('attention', '?')}: {d.get('attention_reason', '')}",
     ]
@@ -83,15 +120,19 @@ def facts_text(d: dict, now_unix_s: float, tca_unix_s: float) -> str:
     return "\n".join(lines)
 
 
+def fmt_speed_fine(v_km_s: float) -> str:
+    return f"{v_km_s * 1e3:.1f} m/s" if v_km_s < 1.0 else f"{v_km_s:.3f} km/s"
+
+
 class EventScreen(Screen):
     BINDINGS = [
         Binding("escape,backspace", "back", "Back"),
-        Binding("1", "plot('range')", "Range plot"),
-        Binding("2", "plot('plane')", "Encounter plane"),
+        Binding("question_mark", "help", "Help"),
+        Binding("1", "plot('range')", "Range"),
+        Binding("2", "plot('plane')", "Plane"),
         Binding("3", "plot('history')", "History"),
         Binding("e", "export", "Export CDM"),
-        Binding("y", "copy", "Copy line"),
-        Binding("question_mark", "help", "Help"),
+        Binding("y", "copy", "Copy line", show=False),
         Binding("q", "app.quit", "Quit", show=False),
     ]
 
@@ -101,6 +142,7 @@ class EventScreen(Screen):
         self.plot = "range"
         self.detail: dict = {}
         self.history: list[dict] = []
+        self.members: list = []
         self.tca_unix_s = 0.0
 
     def compose(self) -> ComposeResult:
@@ -118,11 +160,13 @@ class EventScreen(Screen):
         self.tca_unix_s = store.conn.execute("SELECT tca_unix_s FROM encounters WHERE id=?",
                                              (self.encounter_id,)).fetchone()[0]
         d = self.detail
+        self.members = queries.series_members(store, d["run_id"], d["primary"], d["secondary"])
         self.query_one("#event-title", Static).update(
-            f"event {d['event_id']}: {d['primary']} {d['primary_name']} x {d['secondary']} "
-            f"{d['secondary_name']} | {d.get('attention', '?')} | Pc {fmt_pc(d.get('pc') or 0.0)} | "
-            f"miss {d['miss_km'] * 1e3:.0f} m | run {d['run_id']}")
-        self.query_one("#event-facts", Static).update(facts_text(d, self.app.now_unix_s(), self.tca_unix_s))
+            f"{d['primary_name'] or d['primary']} x {d['secondary_name'] or d['secondary']} | "
+            f"{d.get('attention', '?')} | Pc {fmt_pc(d.get('pc') or 0.0)} | miss {d['miss_km'] * 1e3:.0f} m"
+            f" | {d['tca'][5:16].replace('T', ' ')}Z | event {d['event_id']}, run {d['run_id']}")
+        self.query_one("#event-facts", Static).update(
+            facts_text(d, self.app.now_unix_s(), self.tca_unix_s, self.members))
         self._layout()
         self.query_one("#event-body").focus()
 

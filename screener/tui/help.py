@@ -11,11 +11,21 @@ from textual.widgets import Static
 from .widgets import CautionBar
 
 KEY_NAMES = {"escape": "Esc", "enter": "Enter", "slash": "/", "question_mark": "?",
-             "pageup": "PgUp", "pagedown": "PgDn", "space": "Space", "tab": "Tab"}
+             "pageup": "PgUp", "pagedown": "PgDn", "space": "Space", "tab": "Tab",
+             "left_square_bracket": "[", "right_square_bracket": "]", "plus": "+", "minus": "-",
+             "left": "Left", "right": "Right", "up": "Up", "down": "Down", "home": "Home",
+             "end": "End", "backspace": "Backspace"}
 
 
 def _keys(binding_key: str) -> str:
-    return ", ".join(KEY_NAMES.get(k, k) for k in binding_key.split(","))
+    """A binding's keys as a person types them ("[", "Ctrl+q"), never textual's key names."""
+    def one(k: str) -> str:
+        if k in KEY_NAMES:
+            return KEY_NAMES[k]
+        if k.startswith("ctrl+"):
+            return "Ctrl+" + k[5:]
+        return k.replace("_", " ")
+    return ", ".join(one(k) for k in binding_key.split(","))
 
 
 def binding_rows(*owners) -> list[tuple[str, str]]:
@@ -45,7 +55,8 @@ class HelpScreen(ModalScreen):
         text = "\n".join(f"  {k:<{width}}  {d}" for k, d in self._rows)
         with VerticalScroll(id="help-box"):
             yield Static(f"Keys: {self._title}\n\n{text}\n\nESCDELAY (ms, default 100) sets how long "
-                         f"Esc waits for a following key; raise it on slow links.", id="help-text")
+                         f"Esc waits for a following key; raise it on slow links.", id="help-text",
+                         markup=False)
         yield CautionBar()
 
     def action_dismiss(self) -> None:

@@ -1,27 +1,55 @@
-"""The triage list's model: one run's encounter rows with sort, filters and search.
+"""The triage list's model: one run's encounters grouped into series (one row per pair's
+passes in the window, its worst pass shown), with sort, filters, search and expansion.
 
 Plain Python (no textual), so it is tested without a terminal.  The list widget renders only
-the rows in view from `view`, an index list into `rows`; 50,000 rows sort in tens of ms.
+the rows in view from `view`, a list of Items; 50,000 encounters group and sort in well under
+a second.  Filters apply to encounters first; series are formed from what passes, so "TCA in
+the next 24 h" shows each pair's worst pass inside those 24 h.
 """
 
 from __future__ import annotations
 
 import dataclasses
-import math
 
+from ..display import fmt_pc
 from ..risk.attention import LEVELS
+from ..risk.series import ROWS, Series, cumulative_by_primary, group
 from ..store.queries import EncounterRow
 
+# Sort keys take (row shown, level rank of the row or its series).
 SORTS = {
-    "rank": ("Pc, then miss", lambda r: (-r.pc, r.miss_km)),
-    "miss": ("miss distance", lambda r: (r.miss_km, -r.pc)),
-    "tca": ("TCA", lambda r: (r.tca_unix_s, -r.pc)),
-    "speed": ("relative speed", lambda r: (-r.relative_speed_km_s, -r.pc)),
-    "primary": ("primary", lambda r: (r.primary_id, -r.pc)),
-    "level": ("attention level", lambda r: (r.attention_rank, -r.pc)),
+    "rank": ("level, then Pc, then miss", lambda r, lv: (lv, -r.pc, r.miss_km)),
+    "miss": ("miss distance", lambda r, lv: (r.miss_km, -r.pc)),
+    "tca": ("TCA", lambda r, lv: (r.tca_unix_s, -r.pc)),
+    "speed": ("relative speed", lambda r, lv: (-r.relative_speed_km_s, -r.pc)),
+    "primary": ("primary", lambda r, lv: (r.primary_name or r.primary_id, lv, -r.pc)),
+    "level": ("attention level", lambda r, lv: (lv, -r.pc)),
 }
 SORT_ORDER = tuple(SORTS)
 WINDOWS_H = (None, 24.0, 72.0, 168.0)   # TCA within this many hours from now; None = all
+
+
+@dataclasses.dataclass(frozen=True, slots=True)
+class Item:
+    """One line of the list: a series' head (its worst pass), or one pass of an expanded
+    series (member = True), or a pass in the every-pass view (series None)."""
+    row: EncounterRow
+    series: Series | None = None
+    member: bool = False
+
+    @property
+    def count(self) -> int:
+        return self.series.count if self.series is not None else 1
+
+    @property
+    def proximity(self) -> bool:
+        return bool(self.series is not None and self.series.proximity)
+
+    @property
+    def level_rank(self) -> int:
+        if self.series is not None and not self.member:
+            return self.series.level_rank
+        return self.row.attention_rank
 
 
 @dataclasses.dataclass
@@ -31,8 +59,9 @@ class Filters:
     window_h: float | None = None
     search: str = ""
 
-    def describe(self) -> str:
-        parts = [f"level {self.level or 'all'}", f"primary {self.primary or 'all'}",
+    def describe(self, names: dict | None = None) -> str:
+        who = (names or {}).get(self.primary) or self.primary
+        parts = [f"level {self.level or 'all'}", f"primary {who or 'all'}",
                  f"TCA {'all' if self.window_h is None else f'next {self.window_h:g} h'}"]
         if self.search:
             parts.append(f"search {self.search!r}")
@@ -45,17 +74,24 @@ class RunView:
         self.now_unix_s = now_unix_s
         self.sort = "rank"
         self.reverse = False
+        self.grouped = True
+        self.expanded: set[str] = set()
         self.filters = Filters()
-        self.primaries = sorted({r.primary_id for r in rows})
-        self.view: list[int] = []
+        self.names = {}
+        for r in rows:
+            self.names.setdefault(r.primary_id, r.primary_name)
+            self.names.setdefault(r.secondary_id, r.secondary_name)
+        self.primaries = sorted({r.primary_id for r in rows}, key=lambda p: (self.names.get(p) or p, p))
+        self.series: list[Series] = []      # of the rows passing the filters
+        self.view: list[Item] = []
         self.refresh()
 
-    def refresh(self) -> None:
+    def _passing(self) -> list[EncounterRow]:
         f = self.filters
         needle = f.search.lower().strip()
         t_hi = None if f.window_h is None else self.now_unix_s + f.window_h * 3600.0
-        idx = []
-        for k, r in enumerate(self.rows):
+        out = []
+        for r in self.rows:
             if f.primary and r.primary_id != f.primary:
                 continue
             if f.level and r.attention != f.level:
@@ -65,17 +101,41 @@ class RunView:
             if needle and needle not in (f"{r.primary_id} {r.primary_name} {r.secondary_id} "
                                          f"{r.secondary_name}").lower():
                 continue
-            idx.append(k)
+            out.append(r)
+        return out
+
+    def refresh(self) -> None:
+        rows = self._passing()
         key = SORTS[self.sort][1]
-        rows = self.rows
-        idx.sort(key=lambda k: key(rows[k]), reverse=self.reverse)
-        self.view = idx
+        self.series = group(rows, ROWS)
+        if not self.grouped:
+            by_key = {g.key: g for g in self.series}
+            items = [Item(r, by_key[f"{r.primary_id}x{r.secondary_id}"]) for r in rows]
+            items.sort(key=lambda it: key(it.row, it.row.attention_rank), reverse=self.reverse)
+            self.view = [dataclasses.replace(it, member=True) for it in items]
+            return
+        heads = sorted(self.series, key=lambda g: key(g.worst, g.level_rank), reverse=self.reverse)
+        view = []
+        for g in heads:
+            view.append(Item(g.worst, g))
+            if g.key in self.expanded and g.count > 1:
+                view += [Item(r, g, member=True) for r in g.members]
+        self.view = view
 
     def __len__(self) -> int:
         return len(self.view)
 
+    def item(self, pos: int) -> Item:
+        return self.view[pos]
+
     def row(self, pos: int) -> EncounterRow:
-        return self.rows[self.view[pos]]
+        return self.view[pos].row
+
+    def position_of_series(self, key: str) -> int:
+        for k, it in enumerate(self.view):
+            if it.series is not None and it.series.key == key and not it.member:
+                return k
+        return 0
 
     # the actions the screen binds to keys
     def cycle_sort(self) -> None:
@@ -97,6 +157,10 @@ class RunView:
         self.filters.primary = opts[(opts.index(self.filters.primary) + 1) % len(opts)]
         self.refresh()
 
+    def set_primary(self, primary: str | None) -> None:
+        self.filters.primary = primary
+        self.refresh()
+
     def cycle_window(self) -> None:
         self.filters.window_h = WINDOWS_H[(WINDOWS_H.index(self.filters.window_h) + 1) % len(WINDOWS_H)]
         self.refresh()
@@ -105,30 +169,51 @@ class RunView:
         self.filters.search = text
         self.refresh()
 
+    def toggle_grouped(self) -> None:
+        self.grouped = not self.grouped
+        self.refresh()
+
+    def toggle_expanded(self, key: str) -> None:
+        self.expanded.symmetric_difference_update({key})
+        self.refresh()
+
     def describe_sort(self) -> str:
         return SORTS[self.sort][0] + (" (reversed)" if self.reverse else "")
 
+    def describe_rows(self) -> str:
+        n_rows = sum(1 for it in self.view if not it.member) if self.grouped else len(self.view)
+        total = len(self.rows)
+        if self.grouped:
+            return f"{n_rows} series of {len(self.series)}, {sum(g.count for g in self.series)} of {total} passes"
+        return f"{len(self.view)} of {total} passes"
 
-def fmt_pc(pc: float) -> str:
-    return f"{pc:.1e}" if pc > 0 else "0"
-
-
-def fmt_log10(pc: float) -> str:
-    return f"{math.log10(pc):.1f}" if pc > 0 else "-inf"
+    def cumulative(self, primary: str) -> float:
+        return cumulative_by_primary(g for g in self.series if g.primary == primary).get(primary, 0.0)
 
 
 def fmt_until(dt_s: float) -> str:
-    """Time to TCA: +2d05h, +05:12 (h:m), -00:40 when already past."""
-    sign = "-" if dt_s < 0 else "+"
-    s = abs(dt_s)
+    """Time to TCA: +2d05h, +05:12 (h:m); 'past' once the TCA has gone by."""
+    if dt_s < 0:
+        return "past"
+    s = dt_s
     if s >= 86400:
-        return f"{sign}{int(s // 86400)}d{int(s % 86400 // 3600):02d}h"
-    return f"{sign}{int(s // 3600):02d}:{int(s % 3600 // 60):02d}"
+        return f"+{int(s // 86400)}d{int(s % 86400 // 3600):02d}h"
+    return f"+{int(s // 3600):02d}:{int(s % 3600 // 60):02d}"
+
+
+def fmt_ago(dt_s: float) -> str:
+    """'in 5 h 12 min' / '40 min ago (past)' for the event view."""
+    s = abs(dt_s)
+    text = (f"{int(s // 86400)} d {int(s % 86400 // 3600)} h" if s >= 86400 else
+            f"{int(s // 3600)} h {int(s % 3600 // 60)} min")
+    return f"in {text}" if dt_s >= 0 else f"{text} ago (past)"
 
 
 def summary_line(primary, primary_name, secondary, secondary_name, tca, miss_km, speed_km_s, pc,
                  attention, covariance_source) -> str:
     """The one-line event summary the copy key puts on the clipboard."""
-    return (f"{primary} ({primary_name}) x {secondary} ({secondary_name}) TCA {tca} "
-            f"miss {miss_km:.3f} km v {speed_km_s:.2f} km/s Pc {fmt_pc(pc)} "
+    from ..display import fmt_speed
+
+    return (f"{primary_name or primary} ({primary}) x {secondary_name or secondary} ({secondary}) "
+            f"TCA {tca} miss {miss_km:.3f} km v {fmt_speed(speed_km_s)} Pc {fmt_pc(pc)} "
             f"[{attention}; {covariance_source}] - advisory only")

@@ -21,6 +21,34 @@ from .model import RunView, summary_line
 from .widgets import CautionBar
 
 
+def run_line(info, counts: dict, width: int) -> str:
+    """Series by level, then which run this is: its name, when it was made, the window and
+    (where the configuration pinned one) the catalog's as-of time."""
+    made = info.started_utc[5:16].replace("T", " ")
+    text = (" ".join(f"{lv} {counts[lv]}" for lv in LEVELS) + " series"
+            + f" | run {info.id} {info.name}, made {made}Z"
+            + f" | window {info.window_start_utc[5:16].replace('T', ' ')}Z +{info.window_days:g}d")
+    as_of = info.config.get("catalog_as_of")
+    if as_of:
+        text += f" | catalog as of {as_of}"
+    if width >= 140:
+        text += f" | {info.mode}, {info.volume}"
+    return text
+
+
+def stored_text(out) -> str:
+    """The status line after a background screening was stored."""
+    from ..display import plural
+    from ..risk.series import ENGINE, group
+
+    c = out.diff.counts()
+    n = len(out.result.encounters)
+    since = (f"since run {out.diff.previous_run_id}: {c['new']} new, {c['escalated']} escalated, "
+             f"{c['gone']} gone" if out.diff.previous_run_id is not None else "first run of this name")
+    return (f"run {out.run_id} stored: {plural(n, 'pass', 'passes')} in "
+            f"{plural(len(group(out.result.encounters, ENGINE)), 'series', 'series')}; {since}")
+
+
 def one_line(r) -> str:
     """The one-line event summary that y copies."""
     return summary_line(r.primary_id, r.primary_name, r.secondary_id, r.secondary_name, r.tca_utc,
@@ -29,20 +57,22 @@ def one_line(r) -> str:
 
 class TriageScreen(Screen):
     BINDINGS = [
-        Binding("s", "model('cycle_sort')", "Sort"),
-        Binding("v", "model('flip')", "Reverse"),
+        Binding("question_mark", "help", "Help"),
+        Binding("f", "fleet", "Fleet"),
+        Binding("a", "model('toggle_grouped')", "Series/passes"),
         Binding("l", "model('cycle_level')", "Level"),
         Binding("p", "model('cycle_primary')", "Primary"),
-        Binding("t", "model('cycle_window')", "TCA window"),
+        Binding("t", "model('cycle_window')", "TCA window", show=False),
+        Binding("s", "model('cycle_sort')", "Sort", show=False),
+        Binding("v", "model('flip')", "Reverse sort", show=False),
         Binding("slash", "search", "Search"),
         Binding("escape", "clear", "Clear filters", show=False),
-        Binding("n", "new_run", "New screening"),
+        Binding("n", "new_run", "New screening", show=False),
         Binding("x", "cancel_run", "Cancel screening", show=False),
-        Binding("e", "export", "Export CDM"),
+        Binding("e", "export", "Export CDM", show=False),
         Binding("y", "copy", "Copy line", show=False),
         Binding("left_square_bracket", "run_step(-1)", "Older run", show=False),
         Binding("right_square_bracket", "run_step(1)", "Newer run", show=False),
-        Binding("question_mark", "help", "Help"),
         Binding("q", "app.quit", "Quit"),
     ]
 
@@ -101,34 +131,74 @@ class TriageScreen(Screen):
             self.model.sort, self.model.reverse, self.model.filters = old.sort, old.reverse, old.filters
             self.model.refresh()
         lst.set_model(self.model, self.app.now_unix_s())
-        counts = {lv: sum(1 for r in rows if r.attention == lv) for lv in LEVELS}
-        wide = self.app.size.width >= 120
-        self.query_one("#run-line", Static).update(
-            " ".join(f"{lv} {counts[lv]}" for lv in LEVELS)
-            + f" | run {info.id} {info.name} {info.window_start_utc[:16].replace('T', ' ')}Z"
-              f" +{info.window_days:g}d" + (f" | {info.mode}, {info.volume}" if wide else ""))
+        self._update_run_line()
         self._update_filter_line()
+
+    def _update_run_line(self) -> None:
+        info, m = self.run_info, self.model
+        if info is None or m is None:
+            return
+        all_series = m.series if not any(vars(m.filters).values()) else None
+        if all_series is None:
+            from ..risk.series import ROWS, group
+
+            all_series = group(m.rows, ROWS)
+        counts = {lv: sum(1 for g in all_series if LEVELS[g.level_rank] == lv) for lv in LEVELS}
+        self.query_one("#run-line", Static).update(run_line(info, counts, self.app.size.width))
 
     def _update_filter_line(self) -> None:
         m = self.model
-        text = (f"sort {m.describe_sort()} | {m.filters.describe()} | showing {len(m)} of {len(m.rows)}"
+        text = (f"{m.describe_rows()} | {m.filters.describe(m.names)} | sort {m.describe_sort()}"
                 if m else "")
         if m and m.filters.primary:
-            from ..risk.pc import cumulative
+            from ..display import fmt_pc
 
-            pcs = [r.pc for r in m.rows if r.primary_id == m.filters.primary]
-            text += f" | cumulative Pc {cumulative(pcs):.1e}"
+            p = m.filters.primary
+            text = (f"{m.names.get(p) or p} cumulative Pc {fmt_pc(m.cumulative(p))} over "
+                    f"{sum(1 for g in m.series if g.primary == p)} series | " + text)
         self.query_one("#filter-line", Static).update(text)
 
     def _changed(self) -> None:
         self.query_one(EncounterList).model_changed()
         self._update_filter_line()
+        self._update_run_line()
 
     # ----- list actions
     def action_model(self, op: str) -> None:
         """Sort and filter keys: one RunView operation each (see BINDINGS)."""
         getattr(self.model, op)()
         self._changed()
+
+    def action_expand(self, open_: bool) -> None:
+        """Show (or hide) every pass of the series under the cursor, below its head row."""
+        lst = self.query_one(EncounterList)
+        it = lst.current_item
+        if it is None or it.series is None or not self.model.grouped:
+            return
+        key = it.series.key
+        if it.series.count == 1:
+            if open_:
+                self.notify("this series has one pass", timeout=3)
+            return
+        if (key in self.model.expanded) != open_:
+            self.model.toggle_expanded(key)
+            lst.model_changed()
+            lst._move_to(self.model.position_of_series(key))
+            self._update_filter_line()
+
+    def action_fleet(self) -> None:
+        from .fleet_view import FleetScreen
+
+        if self.model is None or not self.model.rows:
+            self.notify("no run to summarise", severity="warning")
+            return
+
+        def chosen(primary):
+            if primary is not None:
+                self.model.set_primary(primary)
+                self._changed()
+
+        self.app.push_screen(FleetScreen(self.model.rows, self.model.names), chosen)
 
     def action_search(self) -> None:
         box = self.query_one("#search", Input)
@@ -247,9 +317,7 @@ class TriageScreen(Screen):
         except ScreenerError as exc:
             self.app.call_from_thread(self._finished, None, f"screening failed: {exc}")
         else:
-            self.app.call_from_thread(self._finished, out.run_id,
-                                      f"run {out.run_id} stored: {len(out.result.encounters)} "
-                                      f"encounters; {out.diff.counts()}")
+            self.app.call_from_thread(self._finished, out.run_id, stored_text(out))
         finally:
             pool.shutdown(wait=False, cancel_futures=True)
 
