@@ -93,6 +93,7 @@ def write_starter(path: str, fleet: list[str] | None = None, catalog: list[str] 
     text = STARTER.format(fleet=lst([rel(x) for x in fleet] if fleet else ["fleet.json"]),
                           catalog=lst([rel(x) for x in catalog] if catalog else ["catalog.tle"]))
     try:
+        os.makedirs(here, exist_ok=True)
         with open(path, "w", encoding="utf-8") as fh:
             fh.write(text)
     except OSError as exc:
