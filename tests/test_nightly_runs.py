@@ -6,6 +6,7 @@ from __future__ import annotations
 import glob
 import os
 import re
+import json
 import sqlite3
 
 import pytest
@@ -78,6 +79,36 @@ def test_history_grows_and_trend_follows_the_miss(two_runs):
         want = "stable" if abs(d_miss) < max(0.05, 0.1 * hist[0]["miss_km"]) else (
             "converging" if d_miss < 0 else "growing")
         assert row["trend"] == want
+
+
+def test_trend_comes_from_runs_with_different_inputs(two_runs, tmp_path):
+    """Re-screening unchanged inputs (same files, same as-of) adds no information: every
+    event keeps the trend it had, instead of all turning "stable"."""
+    import shutil
+
+    store, _pa, _pb, d = two_runs
+    copy = tmp_path / "s.sqlite"
+    shutil.copy(store, copy)
+    p = screener("run", "--config", str(d / "b.toml"), "--store", str(copy), "--quiet", "--no-exports")
+    assert p.returncode == 0, p.stderr
+    conn = sqlite3.connect(copy)
+    b = {r["event_id"]: r["trend"] for r in _rows(conn, 2)}
+    c = {r["event_id"]: r["trend"] for r in _rows(conn, 3)}
+    shared = set(b) & set(c)
+    assert shared and all(c[k] == b[k] for k in shared)
+    assert any(b[k] not in ("stable", "new") for k in shared), "the demo has moving events"
+
+
+def test_trend_is_a_line_through_the_runs():
+    """Least-squares slope over the points (ordinary least squares: any statistics text),
+    its change over the span against the 50 m / 10 % floor."""
+    from screener.store.events import trend_over
+
+    assert trend_over([1.0, 0.8, 0.6, 0.4]) == "converging"
+    assert trend_over([1.0, 1.3, 1.2, 1.6]) == "growing"
+    assert trend_over([1.0, 1.02, 0.99, 1.01]) == "stable"
+    assert trend_over([2.0, 0.5, 2.1]) == "stable"        # one outlier is not a trend
+    assert trend_over([1.0]) == "new"
 
 
 def test_diff_lists_new_escalated_and_gone(two_runs):
@@ -179,3 +210,38 @@ def test_a_schema_1_store_migrates_in_place(tmp_path):
         row = s.conn.execute("SELECT line1, omm_json FROM elsets").fetchone()
         assert row["line1"] == "l1" and row["omm_json"] is None
         assert "flags" in {r["name"] for r in s.conn.execute("PRAGMA table_info(encounters)")}
+
+
+def test_a_catalog_that_shrinks_is_said_even_under_quiet(tmp_path):
+    """A truncated catalog (4,008 objects last night, 1 tonight) screens almost nothing; the
+    run warns on stderr under --quiet, and refuses to screen with fail_on_input_drop."""
+    store = str(tmp_path / "s.sqlite")
+    full = write_config(tmp_path / "a.toml", days=0.3, name="n")
+    assert screener("run", "--config", full, "--store", store, "--quiet", "--no-exports").returncode == 0
+    lines = open(f"{DEMO}/catalog.tle").read().splitlines()
+    one = next(k for k, t in enumerate(lines) if t.startswith("1 "))
+    (tmp_path / "one.tle").write_text("\n".join(lines[one - 1:one + 2]) + "\n")
+    small = write_config(tmp_path / "b.toml", days=0.3, name="n")
+    text = open(small).read().replace(f'"{DEMO}/catalog.tle", "{DEMO}/catalog-history.tle"',
+                                      f'"{tmp_path}/one.tle"')
+    open(small, "w").write(text.replace("workers = 1", "workers = 1\nfail_on_input_drop = true", 1))
+    p = screener("run", "--config", small, "--store", store, "--quiet", "--no-exports")
+    assert p.returncode == 2 and "nothing screened" in p.stderr and "Traceback" not in p.stderr
+    open(small, "w").write(text)
+    p = screener("run", "--config", small, "--store", store, "--quiet", "--no-exports")
+    assert p.returncode == 0, p.stderr
+    assert "inputs shrank: the catalog has 1 objects, 4008 in run 1" in p.stderr
+    conn = sqlite3.connect(store)
+    assert conn.execute("SELECT count(*) FROM runs").fetchone()[0] == 2
+    stats = json.loads(conn.execute("SELECT stats_json FROM runs WHERE id = 2").fetchone()[0])
+    assert any("inputs shrank" in x for x in stats["degraded"])
+
+
+def test_repeated_warnings_are_one_line_with_a_count(tmp_path):
+    p = screener("screen", "--catalog", f"{DEMO}/catalog-history.tle", "--primaries",
+                 f"{DEMO}/fleet.json", "--start", "2026-12-02T00:00:00Z", "--days", "0.2",
+                 "--max-age-days", "0.01", "--workers", "1")
+    assert p.returncode == 0, p.stderr
+    stale = [l for l in p.stderr.splitlines() if "stale:" in l]
+    assert len(stale) == 1 and "element sets older than 0.01 days" in stale[0]
+    assert "more" in stale[0] and stale[0].count(" d)") == 5, stale[0]

@@ -101,6 +101,9 @@ def cmd_run(args) -> int:
     finally:
         if prog:
             prog.close()
+    if args.quiet:          # a degraded night is said even under --quiet (cron mails stderr)
+        for msg in out.degraded:
+            print(f"screener: warning: {msg}", file=sys.stderr)
     try:
         exports = []
         if cfg.outputs.folder and not args.no_exports:

@@ -66,6 +66,8 @@ class Config:
     dask_tls: dict = dataclasses.field(default_factory=dict)   # ca_file, cert_file, key_file
     dask_allow_plain_tcp: bool = False  # tcp:// to a host other than loopback
     max_elset_age_days: float = 7.0
+    max_input_drop: float = 0.5        # warn when the catalog or fleet shrinks by more than this
+    fail_on_input_drop: bool = False   # ... and refuse to screen (exit 2) instead
     strict: bool = False
     fleet_default_radius_m: float = DEFAULT_RADIUS_M
     catalog_default_radius_m: float = DEFAULT_RADIUS_M
@@ -211,6 +213,7 @@ def _build(data: dict, rd: _Reader, base: str, path: str | None) -> Config:
     rd.table(data, (), TOP)
     run = rd.table(data.get("run", {}), ("run",),
                    {"name", "start", "window_days", "workers", "max_elset_age_days", "strict",
+                    "max_input_drop", "fail_on_input_drop",
                     "dask_scheduler", "dask_tls_ca_file", "dask_tls_cert_file",
                     "dask_tls_key_file", "dask_allow_plain_tcp"})
     fleet = rd.table(data.get("fleet", {}), ("fleet",), {"files", "default_radius_m", "objects"})
@@ -240,6 +243,8 @@ def _build(data: dict, rd: _Reader, base: str, path: str | None) -> Config:
     cfg.workers = int(rd.num(run, ("run", "workers"), 2, lo=1, hi=256))
     cfg.max_elset_age_days = rd.num(run, ("run", "max_elset_age_days"), 7.0, positive=True)
     cfg.strict = rd.boolean(run, ("run", "strict"), False)
+    cfg.max_input_drop = rd.num(run, ("run", "max_input_drop"), 0.5, lo=0.0, hi=1.0)
+    cfg.fail_on_input_drop = rd.boolean(run, ("run", "fail_on_input_drop"), False)
     cfg.dask_scheduler = rd.string(run, ("run", "dask_scheduler"), None)
     for key in ("ca_file", "cert_file", "key_file"):
         got = rd.paths(run, ("run", f"dask_tls_{key}"), base, required=False)

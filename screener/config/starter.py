@@ -22,6 +22,8 @@ workers = 2                  # local processes
 # dask_scheduler = "tcp://scheduler-host:8786"   # run the tasks on a Dask cluster instead
 max_elset_age_days = 7.0     # older element sets are screened but flagged
 strict = false               # true: stop at the first bad record instead of skipping it
+max_input_drop = 0.5         # warn when the catalog or fleet has shrunk by more than half
+fail_on_input_drop = false   # true: refuse to screen then (exit 2; nothing stored)
 
 [fleet]
 # Own spacecraft: element sets (TLE, OMM KVN/XML/CSV/JSON) and CCSDS OEM ephemerides.

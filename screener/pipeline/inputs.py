@@ -11,11 +11,13 @@ from ..config import Config
 from ..elements import ElementSet, Oem, load_elements, read_oem, stale_records
 from ..elements.catalog import expand_paths
 from ..errors import ScreenerError
+from ..display import fmt_days, plural
 from ..textfile import open_regular
 from .identity import canonical_config, identities, tie_oems
 from ..timeutil import iso_z, jd_to_datetime
 
 MAX_LISTED = 20
+STALE_LISTED = 5      # stale element sets are one warning line: the count and the oldest few
 Warn = Callable[[str], None]
 
 
@@ -116,9 +118,14 @@ def load_inputs(cfg: Config, jd0: float, fr0: float, warn: Warn) -> Inputs:
         primaries = [r for r in primaries if r not in dropped]
     ids = identities(primaries, oems, catalog)
     canonical_config(cfg, ids, warn)
-    for rec, age in stale_records(primaries + catalog, jd0, fr0, cfg.max_elset_age_days):
-        warn(f"stale: {rec.catalog_id} {rec.name} element set is {age:.1f} days old at the "
-             f"screening start (limit {cfg.max_elset_age_days:g}); screened, but check it")
+    stale = sorted(stale_records(primaries + catalog, jd0, fr0, cfg.max_elset_age_days),
+                   key=lambda t: -t[1])
+    if stale:
+        shown = ", ".join(f"{rec.catalog_id} {rec.name} ({age:.1f} d)" for rec, age in stale[:STALE_LISTED])
+        more = f" and {len(stale) - STALE_LISTED} more" if len(stale) > STALE_LISTED else ""
+        warn(f"stale: {plural(len(stale), 'element set')} older than "
+             f"{fmt_days(cfg.max_elset_age_days)} at the screening start, screened but check them: "
+             f"{shown}{more}")
     history = {}
     for rep in (cat_rep, p_rep):
         if rep:

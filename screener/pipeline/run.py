@@ -38,6 +38,25 @@ class RunOutcome:
     store_path: str | None = None
     log_path: str | None = None
     started_utc: str = ""
+    degraded: list[str] = dataclasses.field(default_factory=list)   # shown even under --quiet
+
+
+def input_drops(store, cfg: Config, inputs: Inputs) -> list[str]:
+    """Inputs that shrank by more than cfg.max_input_drop since the previous run of the same
+    name (a truncated catalog download screens almost nothing and would otherwise look like a
+    quiet night)."""
+    prev = store.conn.execute("SELECT id, n_primaries, n_secondaries FROM runs WHERE name = ? "
+                              "ORDER BY id DESC LIMIT 1", (cfg.name,)).fetchone()
+    if prev is None:
+        return []
+    out = []
+    for what, before, now in (("catalog", prev["n_secondaries"], len(inputs.catalog)),
+                              ("fleet", prev["n_primaries"], len(inputs.primaries) + len(inputs.oems))):
+        if before and now < (1.0 - cfg.max_input_drop) * before:
+            out.append(f"inputs shrank: the {what} has {now} objects, {before} in run {prev['id']} "
+                       f"({100.0 * (before - now) / before:.0f} % fewer; [run] max_input_drop = "
+                       f"{cfg.max_input_drop:g})")
+    return out
 
 
 def resolve_start(cfg: Config, now: dt.datetime) -> dt.datetime:
@@ -116,6 +135,14 @@ def execute(cfg: Config, store=None, progress: Progress | None = None, cancel=No
         t0 = time.perf_counter()
         inputs = load_inputs(cfg, jd0, fr0, warned)
         report("loading", 1, 1)
+        degraded = input_drops(store, cfg, inputs) if store is not None else []
+        for msg in degraded:
+            warned(msg)
+        if degraded and cfg.fail_on_input_drop:
+            raise ScreenerError(degraded[0] + "; nothing screened ([run] fail_on_input_drop = true)")
+        if inputs.bad_records:
+            degraded.append(f"{inputs.bad_records} bad input record{'s' if inputs.bad_records != 1 else ''} "
+                            f"skipped (each is named in the log)")
         note(f"loaded {len(inputs.primaries) + len(inputs.oems)} primaries, {len(inputs.catalog)} "
              f"catalog objects in {time.perf_counter() - t0:.1f} s")
         req = build_request(cfg, inputs, jd0, fr0)
@@ -134,10 +161,15 @@ def execute(cfg: Config, store=None, progress: Progress | None = None, cancel=No
         note(f"screening: {len(result.encounters)} encounters, {result.stats.get('wall_s', 0):.1f} s")
         for oid, why in sorted(result.unusable.items()):
             note(f"not screened: {oid}: {why}")
+        if result.unusable:
+            degraded.append(f"{len(result.unusable)} object{'s' if len(result.unusable) != 1 else ''} "
+                            f"not screened over part or all of the window (see the summary or log)")
+        result.stats["degraded"] = list(degraded)
         n_enc = len(result.encounters)
         add_risk(cfg, inputs, result, progress=report)
         report("risk", n_enc, n_enc)
-        out = RunOutcome(cfg, inputs, result, started_utc=started, log_path=log_path)
+        out = RunOutcome(cfg, inputs, result, started_utc=started, log_path=log_path,
+                         degraded=degraded)
         if store is not None:
             from ..store.runs import commit_run
 

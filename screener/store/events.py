@@ -20,13 +20,67 @@ TREND_MIN_FRACTION = 0.10
 TCA_SHIFT_REPORT_S = 1.0
 
 
+TREND_POINTS = 4            # the trend is fitted over up to this many runs with new inputs
+
+
 def trend(prev_miss_km: float | None, miss_km: float) -> str:
     if prev_miss_km is None:
         return NEW
-    d = miss_km - prev_miss_km
-    if abs(d) < max(TREND_MIN_CHANGE_KM, TREND_MIN_FRACTION * prev_miss_km):
+    return trend_over([prev_miss_km, miss_km])
+
+
+def trend_over(miss_km: list[float]) -> str:
+    """Trend of an event's miss over its runs with distinct inputs (oldest first, this run
+    last): the least-squares line through them, its change over the span against the noise
+    floor (50 m, or 10 % of the mean miss)."""
+    n = len(miss_km)
+    if n < 2:
+        return NEW
+    mean_k = (n - 1) / 2.0
+    mean_m = sum(miss_km) / n
+    slope = (sum((k - mean_k) * (m - mean_m) for k, m in enumerate(miss_km))
+             / sum((k - mean_k) ** 2 for k in range(n)))
+    change = slope * (n - 1)
+    if abs(change) < max(TREND_MIN_CHANGE_KM, TREND_MIN_FRACTION * mean_m):
         return STABLE
-    return CONVERGING if d < 0 else GROWING
+    return CONVERGING if change < 0 else GROWING
+
+
+def inputs_signature(inputs_json: str, config_json: str) -> str:
+    """What a run's predictions were made from: the input files' SHA-256 and the catalog's
+    as-of time.  Two runs with the same signature predict the same encounters."""
+    import hashlib
+    import json
+
+    files = sorted((f.get("role", ""), f.get("sha256", "")) for f in json.loads(inputs_json or "[]"))
+    as_of = json.loads(config_json or "{}").get("catalog_as_of")
+    return hashlib.sha256(json.dumps([files, as_of]).encode()).hexdigest()
+
+
+def event_trend(conn: sqlite3.Connection, event_id: int, miss_km: float, signature: str,
+                prev: sqlite3.Row | None, signatures: dict[int, str]) -> str:
+    """This run's trend for an event: fitted over the event's earlier runs whose inputs
+    differ from this run's (the latest of each set of inputs), so re-screening unchanged
+    inputs never turns a trend into "stable"; with no such run it keeps the latest trend."""
+    if prev is None:
+        return NEW
+    rows = conn.execute("SELECT e.run_id, e.miss_km, r.inputs_json, r.config_json FROM encounters e "
+                        "JOIN runs r ON r.id = e.run_id WHERE e.event_id = ? ORDER BY e.run_id",
+                        (event_id,)).fetchall()
+    points: list[tuple[str, float]] = []
+    for r in rows:
+        sig = signatures.get(r["run_id"])
+        if sig is None:
+            sig = signatures[r["run_id"]] = inputs_signature(r["inputs_json"], r["config_json"])
+        if sig == signature:
+            continue
+        if points and points[-1][0] == sig:
+            points[-1] = (sig, r["miss_km"])
+        else:
+            points.append((sig, r["miss_km"]))
+    if not points:
+        return prev["trend"]
+    return trend_over([m for _s, m in points[-(TREND_POINTS - 1):]] + [miss_km])
 
 
 @dataclasses.dataclass

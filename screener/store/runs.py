@@ -15,7 +15,7 @@ from ..elements.omm import omm_fields
 from ..elements.record import SGP4_MAX_SATNUM
 from ..elements.tle import catalog_id_to_int
 from .db import Store
-from .events import change_of, match_events, run_diff, trend
+from .events import change_of, event_trend, inputs_signature, match_events, run_diff
 
 HOLD_ENV = "SCREENER_TEST_HOLD"   # tests only: pause at a named point inside the transaction
 
@@ -88,10 +88,12 @@ def commit_run(store: Store, *, name: str, config_snapshot: dict, inputs_files: 
         matches = match_events(conn, run_id, [(e.primary, e.secondary, t) for e, t in zip(encs, tcas)],
                                tca_tolerance_s)
         rows = []
+        signature = inputs_signature(json.dumps(inputs_files), json.dumps(config_snapshot, default=str))
+        signatures: dict[int, str] = {}
         for e, t, m in zip(encs, tcas, matches):
             rk = e.risk
             rank = LEVEL_RANK[rk["attention"]]
-            tr = trend(m.prev["miss_km"] if m.prev else None, e.miss_km)
+            tr = event_trend(conn, m.event_id, e.miss_km, signature, m.prev, signatures)
             ch = change_of(m.prev, rank)
             data = e.to_json()
             data.update({"trend": tr, "change": ch, "event_id": m.event_id})
