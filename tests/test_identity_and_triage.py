@@ -195,3 +195,35 @@ def test_tui_reports_a_bad_config_before_it_starts(tmp_path):
     bad.write_text("[run]\nwindow_days = -1\n")
     p = screener("tui", "--store", str(tmp_path / "s.sqlite"), "--config", str(bad), timeout=60)
     assert p.returncode == 2 and "bad.toml" in p.stderr and "Traceback" not in p.stderr
+
+
+def test_risk_cdm_gives_level_slow_warning_and_the_senders_pc(identified, tmp_path):
+    """`screener risk --cdm` on exported CDMs: the attention level (default thresholds, common
+    practice), a warning for a pass slower than 0.1 km/s, the message's own
+    COLLISION_PROBABILITY beside ours, and a bad value named at its own line."""
+    d, *_ = identified
+    if not (d / "all").exists():
+        assert screener("export", "--store", str(d / "s.sqlite"), "--out", str(d / "all"),
+                        "--cdm", "all").returncode == 0
+    kinds = set()
+    for path in sorted(glob.glob(str(d / "all" / "cdm" / "*.cdm"))):
+        out = tmp_path / "r.json"
+        p = screener("risk", "--cdm", path, "--json", str(out))
+        assert p.returncode == 0, p.stderr
+        r = json.loads(out.read_text())
+        kv = dict(line.split("=", 1) for line in open(path) if "=" in line and not line.startswith("COMMENT"))
+        kv = {k.strip(): v.split("[")[0].strip() for k, v in kv.items()}
+        assert r["attention"] in ("act", "watch", "routine") and f"attention {r['attention']}" in p.stdout
+        assert r["pc_sender"] == pytest.approx(float(kv["COLLISION_PROBABILITY"]), rel=1e-12)
+        assert "the message's own Pc" in p.stdout
+        slow = float(kv["RELATIVE_SPEED"]) < 100.0          # m/s
+        assert ("warning: slow encounter" in p.stdout) == slow
+        kinds.add("slow" if slow else "fast")
+    assert kinds == {"slow", "fast"}
+    text = open(path).read().splitlines()
+    k = next(n for n, t in enumerate(text) if t.startswith("CT_R"))
+    text[k] = "CT_R = oops [m**2]"
+    bad = tmp_path / "bad.cdm"
+    bad.write_text("\n".join(text) + "\n")
+    p = screener("risk", "--cdm", str(bad))
+    assert p.returncode == 2 and f"bad.cdm:{k + 1}:" in p.stderr and "CT_R" in p.stderr
