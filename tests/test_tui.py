@@ -231,7 +231,8 @@ async def test_start_a_screening_in_the_background(store, tmp_path):
         await pilot.press("n")
         await app.workers.wait_for_complete()
         await pilot.pause()
-        assert "run 3 stored" in str(app.screen.query_one("#status").render())
+        status = str(app.screen.query_one("#status").render())
+        assert "run 3 stored" in status and "series" in status and "{" not in status
         assert "run 3" in str(app.screen.query_one("#run-line").render())
         c = sqlite3.connect(store)
         assert c.execute("SELECT count(*) FROM runs").fetchone()[0] == 3
