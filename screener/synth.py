@@ -161,3 +161,51 @@ def background_catalog(n: int, epoch_jd: float, epoch_fr: float, seed: int = 7,
                               mean_anomaly_deg=rng.uniform(0, 360), bstar_per_earth_radius=bstar,
                               ndot_rev_day2=0.0, source=Source("<synthetic>", 0)))
     return out
+
+
+@dataclasses.dataclass(frozen=True)
+class Shell:
+    """One invented Walker-type shell: `planes` planes evenly spaced in RAAN, `per_plane`
+    satellites evenly spaced in each, neighbouring planes phased by `phasing` slots."""
+    alt_km: float
+    inc_deg: float
+    planes: int
+    per_plane: int
+    phasing: int = 1
+
+    @property
+    def count(self) -> int:
+        return self.planes * self.per_plane
+
+
+# Eight invented shells shaped like today's dense LEO: several shells between 480 and 1,200 km,
+# a few common inclinations, dozens of planes, 9,196 satellites in all.
+DENSE_SHELLS = (
+    Shell(540.0, 53.0, 72, 22, 17), Shell(550.0, 53.2, 72, 22, 39), Shell(560.0, 97.6, 36, 20, 5),
+    Shell(570.0, 70.0, 36, 20, 11), Shell(610.0, 42.0, 48, 24, 7), Shell(630.0, 51.9, 34, 34, 3),
+    Shell(1100.0, 87.9, 36, 30, 1), Shell(1200.0, 87.9, 40, 30, 13),
+)
+
+
+def constellation_shells(epoch_jd: float, epoch_fr: float, shells=DENSE_SHELLS, seed: int = 11,
+                         id_of=lambda k: f"{k}", alt_spread_km: float = 0.4) -> list[ElementSet]:
+    """Satellites in thin shells: each within about a kilometre of its shell's altitude (a
+    normal spread of `alt_spread_km`, clipped at 1 km), near-circular, with small station-keeping
+    scatter in RAAN and phase.  Neighbouring planes cross at high latitude every orbit, so
+    pairs within a few kilometres recur all day: the hard case for a screening sieve."""
+    rng = np.random.default_rng(seed)
+    out = []
+    k = 0
+    for sh in shells:
+        for p in range(sh.planes):
+            raan = 360.0 * p / sh.planes
+            for s in range(sh.per_plane):
+                u = 360.0 * s / sh.per_plane + 360.0 * sh.phasing * p / sh.count
+                alt = sh.alt_km + float(np.clip(rng.normal(0.0, alt_spread_km), -1.0, 1.0))
+                rec = circular(id_of(k), f"SHELL{int(sh.alt_km)}-{p:02d}-{s:02d}", alt, sh.inc_deg,
+                               raan + rng.normal(0.0, 0.02), u + rng.normal(0.0, 0.05), epoch_jd,
+                               epoch_fr - rng.uniform(0.0, 1.0), bstar=10 ** rng.uniform(-5.0, -4.0),
+                               ecc=float(rng.uniform(1e-4, 4e-4)))
+                out.append(rec)
+                k += 1
+    return out

@@ -230,7 +230,7 @@ def test_a_catalog_that_shrinks_is_said_even_under_quiet(tmp_path):
     open(small, "w").write(text)
     p = screener("run", "--config", small, "--store", store, "--quiet", "--no-exports")
     assert p.returncode == 0, p.stderr
-    assert "inputs shrank: the catalog has 1 objects, 4008 in run 1" in p.stderr
+    assert "inputs shrank: the catalog has 1 object, 4008 in run 1" in p.stderr
     conn = sqlite3.connect(store)
     assert conn.execute("SELECT count(*) FROM runs").fetchone()[0] == 2
     stats = json.loads(conn.execute("SELECT stats_json FROM runs WHERE id = 2").fetchone()[0])

@@ -102,6 +102,15 @@ def cmd_screen(args) -> int:
     return EXIT_OK
 
 
+def stage_breakdown(stats: dict) -> dict:
+    """Where the time went: wall seconds of read, screen, risk and store, and within the
+    screening the seconds each task stage took, summed over the workers."""
+    out = {k: round(v, 3) for k, v in stats.get("stages", {}).items()}
+    out["screening_task_s"] = {k: round(v, 3) for k, v in stats.get("task_stage_s", {}).items()}
+    out["task_peak_rss_mb"] = round(stats.get("task_peak_rss_mb", 0.0), 1)
+    return out
+
+
 def write_result_json(path, res, extra: dict | None = None) -> None:
     from ..exports.tables import write_json
     from ..timeutil import iso_z, jd_to_datetime
@@ -113,6 +122,7 @@ def write_result_json(path, res, extra: dict | None = None) -> None:
         "window_days": req.duration_s / 86400.0,
         "volume": req.volume.describe(),
         "unusable_objects": res.unusable,
+        "stages": stage_breakdown(res.stats),
         **(extra or {}),
     }
     try:

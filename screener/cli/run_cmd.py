@@ -121,7 +121,9 @@ def cmd_run(args) -> int:
             print(render(out.result, thresholds=cfg.thresholds, diff=out.diff))
             print(f"\nStored as run {out.run_id} in {store.path}; log {out.log_path}")
             if exports:
-                print(f"Exports: {len(exports)} files in {folder}")
+                from ..display import plural
+
+                print(f"Exports: {plural(len(exports), 'file')} in {folder}")
     finally:
         store.close()
     act = [e for e in out.result.encounters if e.risk.get("attention") == ACT]

@@ -7,7 +7,7 @@ import datetime as dt
 import html
 
 from .. import CAUTION
-from ..display import fmt_pc, fmt_speed
+from ..display import fmt_pc, fmt_speed, plural
 from ..risk.attention import LEVELS
 from ..risk.flags import legend_text
 from ..risk.series import CUMULATIVE_RULE, SERIES_PC_RULE, cumulative_by_primary
@@ -51,7 +51,7 @@ def render_report(run: dict, series, n_encounters: int, diff_text: str = "", fmt
     facts = [f"made {run['started_utc']}; window {run['window_start_utc']} + {run['window_days']:g} d, "
              f"{run['volume']}, {run['mode']}",
              f"{run['n_primaries']} primaries, {run['n_secondaries']} secondaries, "
-             f"{n_encounters} encounters in {len(series)} series",
+             f"{plural(n_encounters, 'encounter')} in {len(series)} series",
              "series by attention: " + ", ".join(f"{lv} {counts[lv]}" for lv in LEVELS),
              SERIES_PC_RULE, "flags: " + legend_text()]
     if diff_text:

@@ -95,7 +95,7 @@ def _as_of(report, as_of: str, warn: Warn) -> list[ElementSet]:
         sets[:] = [s for s in sets if (s.epoch_jd - jd) + (s.epoch_fr - fr) <= 0.0]
         if sets:
             kept.append(sets[-1])
-    warn(f"catalog as of {as_of}: {len(kept)} objects have an element set by then")
+    warn(f"catalog as of {as_of}: {plural(len(kept), 'object')} with an element set by then")
     return kept
 
 

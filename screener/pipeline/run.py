@@ -22,6 +22,7 @@ from ..risk.covariance import CovarianceSources
 from ..screening import ScreeningRequest, Volume, screen
 from ..store.db import describe_sqlite_error
 from ..timeutil import datetime_to_jd, iso_z, parse_start
+from ..display import plural
 from .identity import describe
 from .inputs import Inputs, load_inputs
 
@@ -53,7 +54,7 @@ def input_drops(store, cfg: Config, inputs: Inputs) -> list[str]:
     for what, before, now in (("catalog", prev["n_secondaries"], len(inputs.catalog)),
                               ("fleet", prev["n_primaries"], len(inputs.primaries) + len(inputs.oems))):
         if before and now < (1.0 - cfg.max_input_drop) * before:
-            out.append(f"inputs shrank: the {what} has {now} objects, {before} in run {prev['id']} "
+            out.append(f"inputs shrank: the {what} has {plural(now, 'object')}, {before} in run {prev['id']} "
                        f"({100.0 * (before - now) / before:.0f} % fewer; [run] max_input_drop = "
                        f"{cfg.max_input_drop:g})")
     return out
@@ -135,6 +136,7 @@ def execute(cfg: Config, store=None, progress: Progress | None = None, cancel=No
         t0 = time.perf_counter()
         inputs = load_inputs(cfg, jd0, fr0, warned)
         report("loading", 1, 1)
+        stages = {"read_s": time.perf_counter() - t0}
         degraded = input_drops(store, cfg, inputs) if store is not None else []
         for msg in degraded:
             warned(msg)
@@ -158,7 +160,7 @@ def execute(cfg: Config, store=None, progress: Progress | None = None, cancel=No
             if client is not None:
                 client.close()
         describe(result.encounters, inputs.ids)
-        note(f"screening: {len(result.encounters)} encounters, {result.stats.get('wall_s', 0):.1f} s")
+        note(f"screening: {plural(len(result.encounters), 'encounter')}, {result.stats.get('wall_s', 0):.1f} s")
         for oid, why in sorted(result.unusable.items()):
             note(f"not screened: {oid}: {why}")
         if result.unusable:
@@ -166,7 +168,11 @@ def execute(cfg: Config, store=None, progress: Progress | None = None, cancel=No
                             f"not screened over part or all of the window (see the summary or log)")
         result.stats["degraded"] = list(degraded)
         n_enc = len(result.encounters)
+        stages["screen_s"] = result.stats.get("wall_s", 0.0)
+        t_risk = time.perf_counter()
         add_risk(cfg, inputs, result, progress=report)
+        stages["risk_s"] = time.perf_counter() - t_risk
+        result.stats["stages"] = stages
         report("risk", n_enc, n_enc)
         out = RunOutcome(cfg, inputs, result, started_utc=started, log_path=log_path,
                          degraded=degraded)
@@ -174,6 +180,7 @@ def execute(cfg: Config, store=None, progress: Progress | None = None, cancel=No
             from ..store.runs import commit_run
 
             report("storing", 0, 1)
+            t_store = time.perf_counter()
             try:
                 out.run_id, out.diff = commit_run(
                     store, name=cfg.name, config_snapshot=cfg.snapshot(), inputs_files=inputs.files,
@@ -183,6 +190,7 @@ def execute(cfg: Config, store=None, progress: Progress | None = None, cancel=No
                 raise StoreError("the run was computed but not stored: "
                                  + describe_sqlite_error(store.path, exc, store.lock_wait_s)) from None
             out.store_path = store.path
+            stages["store_s"] = time.perf_counter() - t_store
             report("storing", 1, 1)
             note(f"committed run {out.run_id} to {store.path}: {out.diff.counts()}")
         return out

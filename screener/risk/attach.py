@@ -98,9 +98,14 @@ def _path_pc(e: Encounter, est, out: dict, hbr_m: float, thresholds: Thresholds)
     span = f"+-{e.profile_half_s:.0f} s"
     how = ("" if mc.samples <= PATH_MC_SAMPLES else
            "; importance-sampled around the hard-body tube after the first batch")
-    out["pc_method"] = (f"Monte Carlo along the relative path ({span}, {mc.samples:,} samples, "
-                        f"99 % interval {mc.lo99:.1e} to {mc.hi99:.1e}; errors held fixed over the "
-                        f"path{how})")
+    if mc.samples == 0:
+        out["pc_method"] = (f"path bound ({span}): the relative path stays so far from the "
+                            f"hard-body tube in units of the covariance that Pc is below "
+                            f"{mc.hi99:.1e} (rigorous upper bound; no samples needed)")
+    else:
+        out["pc_method"] = (f"Monte Carlo along the relative path ({span}, {mc.samples:,} samples, "
+                            f"99 % interval {mc.lo99:.1e} to {mc.hi99:.1e}; errors held fixed over "
+                            f"the path{how})")
     out["pc_mc_resolved"] = resolved
     if resolved:
         level, reason = thresholds.level(out["pc"], out["pc_max"], out["dilution_region"])

@@ -172,6 +172,9 @@ def pc_path_upper_bound(path_km: np.ndarray, cov_km2: np.ndarray, hbr_km: float)
     return max(BOUND_FLOOR, min(1.0, tail, union))
 
 
+NO_HIT_EXPECTED = 0.01     # expected hits of the plain batch below which it is not drawn
+
+
 def pc_path_resolved(path_km: np.ndarray, cov_km2: np.ndarray, hbr_km: float,
                      thresholds: tuple[float, ...], samples: int = PATH_MC_SAMPLES,
                      max_samples: int = PATH_MC_MAX_SAMPLES, seed: int = 1
@@ -186,6 +189,10 @@ def pc_path_resolved(path_km: np.ndarray, cov_km2: np.ndarray, hbr_km: float,
     def clear(e):
         return all(not (e.lo99 < t <= e.hi99) for t in thresholds)
 
+    if bound * samples < NO_HIT_EXPECTED and clear(MonteCarloPc(0.0, 0.0, bound, 0)):
+        # fewer than NO_HIT_EXPECTED hits expected from the batch: it would all but surely
+        # find none, and the rigorous bound is a better upper end than its interval
+        return MonteCarloPc(0.0, 0.0, bound, 0), True
     mc = pc_path_monte_carlo(path_km, cov_km2, hbr_km, samples=samples, seed=seed)
     est = MonteCarloPc(mc.pc, min(mc.lo99, bound), min(mc.hi99, bound), mc.samples)
     if clear(est) or samples >= max_samples:

@@ -172,13 +172,16 @@ def run_task(task: Task) -> TaskResult:
         if len(s_arr):
             s_bounds = bounds_array([_bounds(sec[k - n_p_rec], task) for k in s_arr])
         n_cand = 0
+        filter_s = 0.0
         for p in p_rows:
             if not len(s_arr):
                 break
+            t_f = time.perf_counter()
             p_b = bounds_array([_pop_bounds(pop, p, task)])
             mask = apogee_perigee_mask(p_b, s_bounds, reach)[0]
             mask &= np.array([pop.ids[s] != pop.ids[p] for s in s_arr])
             ss = s_arr[mask]
+            filter_s += time.perf_counter() - t_f
             if not len(ss):
                 continue
             si, kk = fleet_candidates(r32[p], v32[p], r32[ss], v32[ss], usable[ss] & usable[p][None], h,
@@ -186,7 +189,8 @@ def run_task(task: Task) -> TaskResult:
             n_cand += len(si)
             brackets += brackets_from_candidates(t, r, v, np.full(len(si), p), ss[si], kk, reach, row_of)
         stats["candidates"] = n_cand
-    stats["sieve_s"] = time.perf_counter() - t_sieve
+        stats["filter_s"] = filter_s
+    stats["sieve_s"] = time.perf_counter() - t_sieve - stats.get("filter_s", 0.0)
     stats["brackets"] = len(brackets)
     t_ref = time.perf_counter()
     out = []
@@ -208,7 +212,15 @@ def run_task(task: Task) -> TaskResult:
         add_range_profile(pop, e, b.i, b.j)
         out.append(e)
     stats["refine_s"] = time.perf_counter() - t_ref
+    stats["peak_rss_mb"] = _peak_rss_mb()
     return TaskResult(_dedupe(out), unusable, stats)
+
+
+def _peak_rss_mb() -> float:
+    """The process's peak resident memory so far (Linux reports KiB)."""
+    import resource
+
+    return resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024.0
 
 
 # SGP4's decay codes and our re-entry gate: once one is seen, nothing later is used
@@ -376,6 +388,10 @@ def gather(req: ScreeningRequest, results: Sequence[TaskResult], wall_s: float) 
     stats = {"tasks": len(results), "wall_s": wall_s}
     for key in ("candidates", "brackets"):
         stats[key] = sum(r.stats.get(key, 0) for r in results)
+    # per stage, seconds summed over tasks (CPU time across the workers, not wall time)
+    stats["task_stage_s"] = {k: sum(r.stats.get(f"{k}_s", 0.0) for r in results)
+                             for k in ("propagate", "filter", "sieve", "refine")}
+    stats["task_peak_rss_mb"] = max((r.stats.get("peak_rss_mb", 0.0) for r in results), default=0.0)
     return ScreeningResult(encs, unusable, stats, req)
 
 
