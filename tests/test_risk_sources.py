@@ -200,6 +200,7 @@ def test_screen_json_and_summary_label_assumed_covariance(tmp_path):
     assert all(e["assumed_covariance"] for e in encs)
     pcs = [e["pc"] for e in encs]
     assert "Per spacecraft" in p.stdout and "A = Pc from an assumed covariance" in p.stdout
+    assert ", 1 day," in p.stdout and "1 days" not in p.stdout
     lines = [l for l in p.stdout.splitlines()
              if l[:3].strip().isdigit() and l.split()[1] in ("act", "watch", "routine")]
     rank = {"act": 0, "watch": 1, "routine": 2}
