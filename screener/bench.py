@@ -82,12 +82,14 @@ def scenario(n, jd0, fr0, n_primaries=10, seed=3, dense=True):
     return prims, eng, eng + [rest[k] for k in order]
 
 
-def with_risk_and_store(res, folder: str) -> dict:
-    """Attach risk and commit the run to a real store; wall seconds of each."""
+def with_risk_and_store(res, folder: str, workers: int = 2) -> dict:
+    """Attach risk (as `screener screen` does: on the workers when there are many encounters)
+    and commit the run to a real store; wall seconds of each."""
     import datetime as dt
     import os
 
-    from .risk.attach import attach_risk
+    from .pipeline.run import PARALLEL_RISK_MIN, risk_in_workers
+    from .risk.attach import DEFAULT_OBJECT_RADIUS_M, attach_risk
     from .risk.attention import Thresholds
     from .risk.covariance import CovarianceSources
     from .store import Store
@@ -95,7 +97,12 @@ def with_risk_and_store(res, folder: str) -> dict:
     from .timeutil import iso_z
 
     t0 = time.perf_counter()
-    attach_risk(res.encounters, CovarianceSources(oems=[], configured={}, history=None))
+    encs = res.encounters
+    if workers > 1 and len(encs) >= PARALLEL_RISK_MIN:
+        radii = {oid: DEFAULT_OBJECT_RADIUS_M for e in encs for oid in (e.primary, e.secondary)}
+        risk_in_workers(encs, [], {}, None, radii, Thresholds(), workers)
+    else:
+        attach_risk(encs, CovarianceSources(oems=[], configured={}, history=None))
     risk_s = time.perf_counter() - t0
     path = os.path.join(folder, f"bench-{len(res.encounters)}-{time.time_ns()}.sqlite")
     t0 = time.perf_counter()
@@ -149,7 +156,7 @@ def run_fleet(args, prims, eng, cat, jd0, fr0, vol, tmp) -> None:
     t0 = time.perf_counter()
     res = screen(ScreeningRequest(catalog=cat, primaries=prims, jd0=jd0, fr0=fr0,
                                   duration_s=args.fleet_days * 86400, volume=vol, workers=args.workers))
-    extra = with_risk_and_store(res, tmp)
+    extra = with_risk_and_store(res, tmp, args.workers)
     wall = time.perf_counter() - t0
     cp1 = catalog_pass_s(cat, jd0, fr0, 1.0)
     cp = cp1 * args.fleet_days  # propagation cost is linear in samples: 1 day measured, scaled
@@ -171,7 +178,7 @@ def run_all_vs_all(args, sizes, prims, eng, cat, jd0, fr0, vol, tmp) -> None:
         t0 = time.perf_counter()
         res = screen(ScreeningRequest(catalog=sub, jd0=jd0, fr0=fr0, duration_s=86400.0,
                                       volume=vol, workers=args.workers))
-        extra = with_risk_and_store(res, tmp)
+        extra = with_risk_and_store(res, tmp, args.workers)
         wall = time.perf_counter() - t0
         cpn = catalog_pass_s(sub, jd0, fr0, 1.0)
         print(f"wall {wall:.1f} s  peak RSS {peak_rss_mb():.0f} MB  encounters {len(res.encounters)}  "

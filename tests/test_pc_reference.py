@@ -179,3 +179,26 @@ def test_max_pc_over_covariance_size_equals_a_dense_search(args):
     dense = max(pc_quadrature_adaptive(xm, ym, sx * s, sy * s, R) for s in np.exp(np.linspace(-8, 8, 4001)))
     assert worst == pytest.approx(dense, rel=1e-5)
     assert pc_quadrature(xm, ym, sx * k, sy * k, R) == pytest.approx(worst, rel=1e-9)
+
+
+def test_batch_functions_give_the_one_at_a_time_figures():
+    """The array versions (all encounters of a run at once) against the scalar functions on
+    seeded random geometries (misses to 12 sigma, aspect ratios to 50, disks up to 30 m,
+    including disks larger than the covariance and misses inside the disk)."""
+    import numpy as np
+
+    from screener.risk.pc import pc_max_scaled_many, pc_quadrature_many
+
+    rng = np.random.default_rng(9)
+    n = 120
+    sx = 10 ** rng.uniform(0.5, 3.5, n)
+    sy = sx * 10 ** rng.uniform(-1.7, 1.7, n)
+    R = 10 ** rng.uniform(0, 1.5, n)
+    ns, ang = rng.uniform(0, 12, n), rng.uniform(0, 2 * math.pi, n)
+    xm, ym = ns * sx * np.cos(ang), ns * sy * np.sin(ang)
+    xm[:3], ym[:3] = 0.5 * R[:3], 0.0                   # inside the disk
+    many = pc_quadrature_many(xm, ym, sx, sy, R)
+    worst, _k = pc_max_scaled_many(xm, ym, sx, sy, R)
+    for k in range(n):
+        assert many[k] == pytest.approx(pc_quadrature(xm[k], ym[k], sx[k], sy[k], R[k]), rel=1e-12, abs=1e-300)
+        assert worst[k] == pytest.approx(pc_max_scaled(xm[k], ym[k], sx[k], sy[k], R[k])[0], rel=1e-6)

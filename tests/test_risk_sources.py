@@ -237,3 +237,22 @@ def test_slow_encounters_get_the_path_monte_carlo(demo_encounters):
         assert e.risk["pc_method"].startswith("Monte Carlo along the relative path")
         assert e.risk["pc_mc_lo99"] <= e.risk["pc"] <= e.risk["pc_mc_hi99"]
         assert "pc_2d" in e.risk
+
+
+def test_risk_on_worker_processes_equals_risk_in_process(monkeypatch):
+    """The risk stage split over two spawned workers gives every encounter the same figures
+    as the same stage run in this process (the parallel path is only a schedule)."""
+    from screener.config import load_config
+    from screener.pipeline import execute
+    from screener.pipeline import run as run_mod
+
+    cfg = load_config(os.path.join(DEMO, "demo.toml"))
+    serial = execute(dataclasses.replace(cfg, window_days=1.0, workers=1)).result.encounters
+    monkeypatch.setattr(run_mod, "PARALLEL_RISK_MIN", 1)
+    parallel = execute(dataclasses.replace(cfg, window_days=1.0, workers=2)).result.encounters
+    key = lambda e: (e.primary, e.secondary, round(e.tca_s, 3))  # noqa: E731
+    a, b = sorted(serial, key=key), sorted(parallel, key=key)
+    assert [key(e) for e in a] == [key(e) for e in b] and len(a) > 10
+    for x, y in zip(a, b):
+        for k in ("pc", "pc_max", "attention", "flags", "hbr_m", "covariance_source"):
+            assert x.risk[k] == y.risk[k], (key(x), k)

@@ -83,13 +83,62 @@ def build_request(cfg: Config, inputs: Inputs, jd0: float, fr0: float) -> Screen
                             workers=cfg.workers)
 
 
-def add_risk(cfg: Config, inputs: Inputs, result, progress: Progress | None = None) -> None:
-    sources = CovarianceSources(oems=inputs.oems, configured=cfg.covariance.mapping(),
-                                history=inputs.history if cfg.covariance.use_history else None)
+PARALLEL_RISK_MIN = 2000      # encounters from which the risk stage uses worker processes
+RISK_CHUNKS_PER_WORKER = 4
+
+
+def add_risk(cfg: Config, inputs: Inputs, result, progress: Progress | None = None,
+             executor=None) -> None:
+    """Risk for every encounter: in this process, or, for many encounters and more than one
+    worker, in chunks on worker processes (`executor`, else a pool of cfg.workers)."""
+    history = inputs.history if cfg.covariance.use_history else None
     primary_ids = {r.catalog_id for r in inputs.primaries} | {o.object_id for o in inputs.oems}
-    attach_risk(result.encounters, sources,
-                radius_m=lambda oid: cfg.radius_m(oid, oid in primary_ids),
-                thresholds=cfg.thresholds, progress=progress)
+    encs = result.encounters
+    ids = {e.primary for e in encs} | {e.secondary for e in encs}
+    radii = {oid: cfg.radius_m(oid, oid in primary_ids) for oid in ids}
+    if cfg.workers <= 1 or len(encs) < PARALLEL_RISK_MIN:
+        sources = CovarianceSources(oems=inputs.oems, configured=cfg.covariance.mapping(), history=history)
+        attach_risk(encs, sources, radius_m=lambda oid: radii[oid], thresholds=cfg.thresholds,
+                    progress=progress)
+        return
+    risk_in_workers(encs, inputs.oems, cfg.covariance.mapping(), history, radii, cfg.thresholds,
+                    cfg.workers, executor, progress)
+
+
+def risk_in_workers(encs, oems, configured, history, radii, thresholds, workers: int,
+                    executor=None, progress: Progress | None = None) -> None:
+    """attach_risk over chunks of the encounters on worker processes; each chunk carries only
+    the element-set histories and radii of its own objects."""
+    from concurrent.futures import as_completed
+
+    from ..risk.attach import risk_of_chunk
+
+    n_chunks = workers * RISK_CHUNKS_PER_WORKER
+    size = max(1, -(-len(encs) // n_chunks))
+    chunks = [encs[a:a + size] for a in range(0, len(encs), size)]
+    own = executor is None
+    if own:
+        from ..workers import spawn_pool
+
+        executor = spawn_pool(workers)
+    try:
+        futures = {}
+        for chunk in chunks:
+            mine = {e.primary for e in chunk} | {e.secondary for e in chunk}
+            hist = {k: v for k, v in (history or {}).items() if k in mine}
+            futures[executor.submit(risk_of_chunk, chunk, oems, configured, hist,
+                                    {k: radii[k] for k in mine}, thresholds)] = chunk
+        done = 0
+        for fut in as_completed(futures):
+            chunk = futures[fut]
+            for e, risk in zip(chunk, fut.result()):
+                e.risk = risk
+            done += len(chunk)
+            if progress:
+                progress("risk", done, len(encs))
+    finally:
+        if own:
+            executor.shutdown(wait=True, cancel_futures=True)
 
 
 def open_log(folder: str, stamp: str) -> tuple[logging.Logger, str]:
@@ -170,7 +219,8 @@ def execute(cfg: Config, store=None, progress: Progress | None = None, cancel=No
         n_enc = len(result.encounters)
         stages["screen_s"] = result.stats.get("wall_s", 0.0)
         t_risk = time.perf_counter()
-        add_risk(cfg, inputs, result, progress=report)
+        add_risk(cfg, inputs, result, progress=report,
+                 executor=executor if client is None else None)
         stages["risk_s"] = time.perf_counter() - t_risk
         result.stats["stages"] = stages
         report("risk", n_enc, n_enc)

@@ -6,7 +6,7 @@ import numpy as np
 
 from .encounter_plane import project, ric_to_inertial_cov
 from .pc import (chan_is_reliable, in_dilution_region, pc_chan, pc_max_line, pc_max_scaled,
-                 pc_quadrature)
+                 pc_max_scaled_many, pc_quadrature, pc_quadrature_many)
 
 
 def assess(r1_km, v1_km_s, cov1_rtn_km2, r2_km, v2_km_s, cov2_rtn_km2, hbr_m: float,
@@ -24,15 +24,50 @@ def assess(r1_km, v1_km_s, cov1_rtn_km2, r2_km, v2_km_s, cov2_rtn_km2, hbr_m: fl
     else:
         pc, method = pc_ref, f"2-D quadrature (Chan not used: {why})"
     worst, _ = pc_max_scaled(*args)
+    return _result(g, rho, w, hbr_m, covariance_source, pc, method, pc_ref, worst,
+                   in_dilution_region(*args))
+
+
+def assess_many(items) -> list[dict]:
+    """assess() for many encounters: items are its argument tuples.  The geometry is found per
+    encounter; the quadrature, the maximum over the covariance size and the dilution test run
+    as array operations over all of them (the same rules, so the same figures)."""
+    geo = []
+    for r1_km, v1_km_s, cov1, r2_km, v2_km_s, cov2, hbr_m, source in items:
+        r1, v1, r2, v2 = (np.asarray(x, float) for x in (r1_km, v1_km_s, r2_km, v2_km_s))
+        c = ric_to_inertial_cov(cov1, r1, v1) + ric_to_inertial_cov(cov2, r2, v2)
+        rho, w = r2 - r1, v2 - v1
+        geo.append((project(rho, w, c), rho, w, hbr_m, source))
+    if not geo:
+        return []
+    xm, ym, sx, sy, R = (np.array(v) for v in zip(*[(g.xm_m, g.ym_m, g.sx_m, g.sy_m, h)
+                                                     for g, _r, _w, h, _s in geo]))
+    pc_ref = pc_quadrature_many(xm, ym, sx, sy, R)
+    worst, _k = pc_max_scaled_many(xm, ym, sx, sy, R)
+    dilution = pc_quadrature_many(xm, ym, sx * 0.9, sy * 0.9, R) > pc_ref
+    out = []
+    for n, (g, rho, w, hbr_m, source) in enumerate(geo):
+        args = (g.xm_m, g.ym_m, g.sx_m, g.sy_m, hbr_m)
+        ok, why = chan_is_reliable(*args)
+        if ok:
+            pc, method = pc_chan(*args), "Chan series"
+        else:
+            pc, method = float(pc_ref[n]), f"2-D quadrature (Chan not used: {why})"
+        out.append(_result(g, rho, w, hbr_m, source, pc, method, float(pc_ref[n]), float(worst[n]),
+                           bool(dilution[n])))
+    return out
+
+
+def _result(g, rho, w, hbr_m, source, pc, method, pc_ref, worst, dilution) -> dict:
     return {
         "pc": pc, "pc_method": method, "pc_quadrature": pc_ref,
         "log10_pc": float(np.log10(pc)) if pc > 0 else None,
         "pc_max": worst, "pc_max_any_shape": pc_max_line(g.miss_m, hbr_m),
-        "dilution_region": in_dilution_region(*args),
+        "dilution_region": dilution,
         "miss_km": float(np.linalg.norm(rho)), "relative_speed_km_s": float(np.linalg.norm(w)),
         "sigma_major_m": max(g.sx_m, g.sy_m), "sigma_minor_m": min(g.sx_m, g.sy_m),
         "plane_xm_m": g.xm_m, "plane_ym_m": g.ym_m, "plane_sx_m": g.sx_m, "plane_sy_m": g.sy_m,
-        "hbr_m": hbr_m, "covariance_source": covariance_source,
+        "hbr_m": hbr_m, "covariance_source": source,
         "covariance_note": "objects' errors assumed uncorrelated (combined = sum)",
     }
 

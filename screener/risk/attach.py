@@ -9,7 +9,7 @@ from typing import Callable, Mapping, Sequence
 import numpy as np
 
 from ..screening.encounter import Encounter
-from .assess import assess
+from .assess import assess_many
 from .attention import Thresholds
 from .covariance import CovarianceSources
 from .flags import encounter_flags
@@ -44,8 +44,9 @@ def attach_risk(encounters: Sequence[Encounter], sources: CovarianceSources,
     radius_m = radius_m or (lambda _id: DEFAULT_OBJECT_RADIUS_M)
     aliases = aliases or {}
     total = len(encounters)
+    staged = []
     for n, e in enumerate(encounters):
-        if progress and n % 10 == 0:
+        if progress and n % 500 == 0:
             progress("risk", n, total)
         tjd, tfr = e.tca_jd
         est = []
@@ -55,8 +56,13 @@ def attach_risk(encounters: Sequence[Encounter], sources: CovarianceSources,
         hbr_m = radius_m(e.primary) + radius_m(e.secondary)
         assumed_any = any(x.assumed for x in est)
         label = ASSUMED_LABEL if assumed_any else " + ".join(dict.fromkeys(x.source for x in est))
-        out = assess(e.primary_r_km, e.primary_v_km_s, est[0].cov_rtn_km2, e.secondary_r_km,
-                     e.secondary_v_km_s, est[1].cov_rtn_km2, hbr_m, label)
+        staged.append((e, est, hbr_m, assumed_any,
+                       (e.primary_r_km, e.primary_v_km_s, est[0].cov_rtn_km2, e.secondary_r_km,
+                        e.secondary_v_km_s, est[1].cov_rtn_km2, hbr_m, label)))
+    results = assess_many([x[4] for x in staged])
+    for n, ((e, est, hbr_m, assumed_any, _args), out) in enumerate(zip(staged, results)):
+        if progress and n % 10 == 0:
+            progress("risk", n, total)
         sigma3d_km = math.sqrt(max(np.linalg.eigvalsh(est[0].cov_rtn_km2 + est[1].cov_rtn_km2)))
         t_enc_s = 2.0 * (5.0 * sigma3d_km + hbr_m / 1000.0) / max(e.relative_speed_km_s, 1e-9)
         short_ok = e.relative_speed_km_s >= SLOW_PASS_KM_S and t_enc_s <= SHORT_ENCOUNTER_MAX_S
@@ -79,6 +85,15 @@ def attach_risk(encounters: Sequence[Encounter], sources: CovarianceSources,
                 _path_pc(e, est, out, hbr_m, thresholds)
         out["flags"] = encounter_flags(assumed_any, bool(out["dilution_region"]), short_ok)
         e.risk = out
+
+
+def risk_of_chunk(encounters: Sequence[Encounter], oems, configured, history, radii: dict,
+                  thresholds: Thresholds) -> list[dict]:
+    """Risk for a chunk of encounters in a worker process: everything it needs comes as plain
+    data (the covariance sources' inputs, each object's radius), the risk dicts go back."""
+    sources = CovarianceSources(oems=oems, configured=configured, history=history)
+    attach_risk(encounters, sources, radius_m=lambda oid: radii[oid], thresholds=thresholds)
+    return [e.risk for e in encounters]
 
 
 def _path_pc(e: Encounter, est, out: dict, hbr_m: float, thresholds: Thresholds) -> None:

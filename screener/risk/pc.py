@@ -62,6 +62,132 @@ def pc_quadrature_fixed(xm: float, ym: float, sx, sy, R: float):
     return np.sum(_GL_W * gx * ymass * half, axis=-1)
 
 
+BATCH_ROWS = 32768     # geometries x nodes per array operation in the batch functions (memory bound)
+
+
+def _fixed_rows(xm, ym, sx, sy, R):
+    """The fixed rule over rows: every argument an array of the same shape (..., )."""
+    x = xm[..., None] + R[..., None] * np.sin(_GL_THETA)
+    half = R[..., None] * np.cos(_GL_THETA)
+    sxe, sye = sx[..., None], sy[..., None]
+    gx = np.exp(-0.5 * (x / sxe) ** 2) / (sxe * math.sqrt(2 * math.pi))
+    a = (ym[..., None] - half) / sye
+    b = (ym[..., None] + half) / sye
+    ymass = np.where(a > 0, special.ndtr(-a) - special.ndtr(-b), special.ndtr(b) - special.ndtr(a))
+    return np.sum(_GL_W * gx * ymass * half, axis=-1)
+
+
+def pc_quadrature_many(xm, ym, sx, sy, R) -> np.ndarray:
+    """pc_quadrature for many geometries at once (1-D arrays, or scalars broadcast): the fixed
+    rule in array operations where it applies, the adaptive rule for the others."""
+    xm, ym, sx, sy, R = np.broadcast_arrays(*(np.asarray(v, float) for v in (xm, ym, sx, sy, R)))
+    out = np.zeros(xm.shape)
+    ok = R <= FIXED_RULE_MAX_R * np.minimum(sx, sy)
+    idx = np.nonzero(ok)[0]
+    for a in range(0, len(idx), BATCH_ROWS):
+        k = idx[a:a + BATCH_ROWS]
+        out[k] = _fixed_rows(xm[k], ym[k], sx[k], sy[k], R[k])
+    for k in np.nonzero(~ok)[0]:
+        out[k] = pc_quadrature_adaptive(xm[k], ym[k], sx[k], sy[k], R[k])
+    return out
+
+
+GOLDEN_STEPS = 40      # bracket of 0.5 in log scale narrowed to ~5e-9 (0.618^40)
+
+
+def pc_max_scaled_many(xm, ym, sx, sy, R) -> tuple[np.ndarray, np.ndarray]:
+    """pc_max_scaled for many geometries: the same log-scale grid, then a golden-section
+    search inside each geometry's bracket, all in array operations.  Returns (max Pc, k)."""
+    xm, ym, sx, sy, R = np.broadcast_arrays(*(np.asarray(v, float) for v in (xm, ym, sx, sy, R)))
+    n = len(xm)
+    best_pc, best_k = np.zeros(n), np.ones(n)
+    d = np.hypot(xm, ym)
+    inside = d <= R
+    best_pc[inside], best_k[inside] = 1.0, math.exp(SCALE_GRID[0])
+    # Small-disk limit: Pc(k) ~ R^2 / (2 sx sy k^2) exp(-v / (2 k^2)), v the squared
+    # Mahalanobis miss, peaks at k = sqrt(v / 2).  Where the disk is still small there, a
+    # narrow grid around that peak (+-2 in log k) finds the bracket; elsewhere the full grid.
+    v = (xm / sx) ** 2 + (ym / sy) ** 2
+    k_star = np.sqrt(np.maximum(v, 1e-300) / 2.0)
+    narrow = ~inside & (R <= FIXED_RULE_MAX_R * np.minimum(sx, sy) * k_star * math.exp(-2.0))
+    edge: list[np.ndarray] = []
+    _max_over_rows(np.nonzero(narrow)[0], lambda r: np.log(k_star[r])[:, None] + NARROW_GRID[None, :],
+                   xm, ym, sx, sy, R, d, best_pc, best_k, edge)
+    # the full grid for the rest, and for any row whose narrow-grid best sat at an end
+    rest = np.concatenate([np.nonzero(~inside & ~narrow)[0], *edge]).astype(int)
+    _max_over_rows(rest, lambda r: np.broadcast_to(SCALE_GRID, (len(r), len(SCALE_GRID))),
+                   xm, ym, sx, sy, R, d, best_pc, best_k, None)
+    return best_pc, best_k
+
+
+NARROW_GRID = np.linspace(-2.0, 2.0, 17)
+
+
+def _max_over_rows(rows, grid_of, xm, ym, sx, sy, R, d, best_pc, best_k, edge) -> None:
+    """Grid, then golden section inside the best grid point's bracket, for the given rows
+    (in place into best_pc, best_k).  With `edge` a list, rows whose best grid point is at
+    either end are left out and appended to it."""
+    if not len(rows):
+        return
+    width = grid_of(rows[:1]).shape[1]
+    step = max(1, BATCH_ROWS // width)
+    for a in range(0, len(rows), step):
+        r = rows[a:a + step]
+        LG = grid_of(r)
+        ks = np.exp(LG)
+
+        def grid_pc(r=r, ks=ks):
+            m = len(r)
+            K = ks
+            gx, gy = sx[r, None] * K, sy[r, None] * K
+            XM, YM, RR = (np.broadcast_to(v[r, None], (m, K.shape[1])) for v in (xm, ym, R))
+            ok = RR <= FIXED_RULE_MAX_R * np.minimum(gx, gy)
+            far = (d[r, None] - RR) > 10.0 * np.maximum(gx, gy)
+            vals = np.zeros((m, K.shape[1]))
+            vals[ok] = _fixed_rows(XM[ok], YM[ok], gx[ok], gy[ok], RR[ok])
+            for i, j in zip(*np.nonzero(~ok & ~far)):
+                vals[i, j] = pc_quadrature_adaptive(XM[i, j], YM[i, j], gx[i, j], gy[i, j], RR[i, j])
+            return vals
+
+        vals = grid_pc()
+        g = np.argmax(vals, axis=1)
+        if edge is not None:
+            at_end = (g == 0) | (g == width - 1)
+            if at_end.any():
+                edge.append(r[at_end])
+                keep = ~at_end
+                r, LG, ks, vals, g = r[keep], LG[keep], ks[keep], vals[keep], g[keep]
+                if not len(r):
+                    continue
+        rr = np.arange(len(r))
+        lo = LG[rr, np.maximum(g - 1, 0)]
+        hi = LG[rr, np.minimum(g + 1, width - 1)]
+        f = lambda lk, r=r: pc_quadrature_many(xm[r], ym[r], sx[r] * np.exp(lk), sy[r] * np.exp(lk), R[r])  # noqa: E731
+        inv = (math.sqrt(5.0) - 1.0) / 2.0
+        c, e = hi - inv * (hi - lo), lo + inv * (hi - lo)
+        fc, fe = f(c), f(e)
+        for _ in range(GOLDEN_STEPS):
+            left = fc >= fe                      # the maximum lies in [lo, e]
+            hi = np.where(left, e, hi)
+            lo = np.where(left, lo, c)
+            e_new = np.where(left, c, lo + inv * (hi - lo))
+            c_new = np.where(left, hi - inv * (hi - lo), e)
+            fe_new = np.where(left, fc, np.nan)
+            fc_new = np.where(left, np.nan, fe)
+            need_c, need_e = np.isnan(fc_new), np.isnan(fe_new)
+            if need_c.any():
+                fc_new[need_c] = f(c_new)[need_c]
+            if need_e.any():
+                fe_new[need_e] = f(e_new)[need_e]
+            c, e, fc, fe = c_new, e_new, fc_new, fe_new
+        mid = (lo + hi) / 2.0
+        fm = f(mid)
+        grid_best = vals[rr, g]
+        use_mid = fm >= grid_best
+        best_pc[r] = np.where(use_mid, fm, grid_best)
+        best_k[r] = np.where(use_mid, np.exp(mid), ks[rr, g])
+
+
 def pc_quadrature_adaptive(xm: float, ym: float, sx: float, sy: float, R: float) -> float:
     """The quadrature with scipy's adaptive rule (relative tolerance 1e-12)."""
 
