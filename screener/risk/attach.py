@@ -114,9 +114,9 @@ def _path_pc(e: Encounter, est, out: dict, hbr_m: float, thresholds: Thresholds)
     how = ("" if mc.samples <= PATH_MC_SAMPLES else
            "; importance-sampled around the hard-body tube after the first batch")
     if mc.samples == 0:
-        out["pc_method"] = (f"path bound ({span}): the relative path stays so far from the "
-                            f"hard-body tube in units of the covariance that Pc is below "
-                            f"{mc.hi99:.1e} (rigorous upper bound; no samples needed)")
+        out["pc_method"] = (f"Monte Carlo along the relative path not drawn ({span}): the path "
+                            f"stays so far from the hard-body tube in units of the covariance "
+                            f"that Pc is below {mc.hi99:.1e} (rigorous upper bound)")
     else:
         out["pc_method"] = (f"Monte Carlo along the relative path ({span}, {mc.samples:,} samples, "
                             f"99 % interval {mc.lo99:.1e} to {mc.hi99:.1e}; errors held fixed over "

@@ -41,8 +41,8 @@ class Encounter:
     secondary_r_km: tuple = ()
     secondary_v_km_s: tuple = ()
     profile_half_s: float = 0.0     # range profile spans TCA +- this
-    range_profile_km: tuple = ()    # PROFILE_SAMPLES ranges, evenly spaced over the span
-    relative_path_km: tuple = ()    # secondary - primary (TEME) at the profile's instants
+    range_profile_km: np.ndarray | tuple = ()  # PROFILE_SAMPLES ranges, evenly over the span
+    relative_path_km: np.ndarray | tuple = ()  # (n, 3) secondary - primary (TEME), same instants
     risk: dict = dataclasses.field(default_factory=dict)   # filled by the risk layer
     identity: dict = dataclasses.field(default_factory=dict)  # designators and orbit sources
 
@@ -79,7 +79,7 @@ class Encounter:
             "primary_state_teme": [*self.primary_r_km, *self.primary_v_km_s],
             "secondary_state_teme": [*self.secondary_r_km, *self.secondary_v_km_s],
             "profile_half_s": self.profile_half_s,
-            "range_profile_km": list(self.range_profile_km),
+            "range_profile_km": np.asarray(self.range_profile_km, float).tolist(),
             **self.identity,
             **self.risk,
         }
@@ -135,5 +135,6 @@ def add_range_profile(pop, e: Encounter, i: int, j: int) -> None:
     bad = (code[0] != 0) | (code[1] != 0)
     rng[bad] = np.nan
     e.profile_half_s = half
-    e.range_profile_km = tuple(float(x) for x in rng)
-    e.relative_path_km = tuple(tuple(map(float, x)) for x in rel[~bad])
+    # arrays, not tuples of floats: a dense-shell run holds tens of thousands of these
+    e.range_profile_km = rng
+    e.relative_path_km = np.ascontiguousarray(rel[~bad])
