@@ -14,7 +14,6 @@ from __future__ import annotations
 
 import numpy as np
 import pytest
-from scipy.optimize import minimize_scalar
 from scipy.spatial import cKDTree
 from sgp4.api import SatrecArray
 
@@ -22,7 +21,7 @@ from screener import synth
 from screener.screening import ScreeningRequest, Volume, screen
 from screener.timeutil import datetime_to_jd, parse_iso
 
-from .test_screening_reference import ONE_METRE_KM, reference_satrec
+from .test_screening_reference import ONE_METRE_KM, reference_satrec, refine_minimum
 
 RADIUS_KM = 5.0
 STEP_S = 10.0
@@ -59,17 +58,10 @@ def reference_minima(records, jd0, fr0):
         d[~(ok[a] & ok[b])] = np.nan
         ks = np.nonzero((d[1:-1] <= d[:-2]) & (d[1:-1] <= d[2:]) & (d[1:-1] < reach))[0] + 1
 
-        def d2(ts, a=a, b=b):
-            _, ra, _ = sats[a].sgp4(jd0, fr0 + ts / 86400.0)
-            _, rb, _ = sats[b].sgp4(jd0, fr0 + ts / 86400.0)
-            return float(np.sum((np.array(rb) - np.array(ra)) ** 2))
-
         for k in ks:
-            res = minimize_scalar(d2, bounds=(t[k - 1], t[k + 1]), method="bounded",
-                                  options={"xatol": 1e-6})
-            if np.sqrt(res.fun) <= RADIUS_KM:
-                found.append((records[a].catalog_id, records[b].catalog_id, float(res.x),
-                              float(np.sqrt(res.fun))))
+            tca, miss = refine_minimum(sats[a], sats[b], jd0, fr0, t[k - 1], t[k + 1], 1e-6)
+            if miss <= RADIUS_KM:
+                found.append((records[a].catalog_id, records[b].catalog_id, tca, miss))
     return found
 
 

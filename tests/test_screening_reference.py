@@ -61,17 +61,23 @@ def brute_force(records, jd0, fr0, window_s, radius_km, pairs):
         d = np.linalg.norm(r[b] - r[a], axis=1)
         k = np.nonzero((d[1:-1] < d[:-2]) & (d[1:-1] <= d[2:]) & (d[1:-1] < radius_km + 16.0 * STEP_S))[0] + 1  # 16 km/s bound
 
-        def d2(ts, a=a, b=b):
-            ea, ra, _ = sats[a].sgp4(jd0, fr0 + ts / 86400.0)
-            eb, rb, _ = sats[b].sgp4(jd0, fr0 + ts / 86400.0)
-            return float(np.sum((np.array(rb) - np.array(ra)) ** 2))
-
         for kk in k:
-            res = minimize_scalar(d2, bounds=(t[kk - 1], t[kk + 1]), method="bounded",
-                                  options={"xatol": 1e-7})
-            if np.sqrt(res.fun) <= radius_km:
-                found.append((records[a].catalog_id, records[b].catalog_id, res.x, np.sqrt(res.fun)))
+            tca, miss = refine_minimum(sats[a], sats[b], jd0, fr0, t[kk - 1], t[kk + 1], 1e-7)
+            if miss <= radius_km:
+                found.append((records[a].catalog_id, records[b].catalog_id, tca, miss))
     return found
+
+
+def refine_minimum(sat_a, sat_b, jd0, fr0, t_lo_s, t_hi_s, xatol_s):
+    """(time, range) of the range minimum in [t_lo, t_hi] on plain sgp4, by scipy's bounded
+    scalar minimisation of the squared range."""
+    def d2(ts):
+        _, ra, _ = sat_a.sgp4(jd0, fr0 + ts / 86400.0)
+        _, rb, _ = sat_b.sgp4(jd0, fr0 + ts / 86400.0)
+        return float(np.sum((np.array(rb) - np.array(ra)) ** 2))
+
+    res = minimize_scalar(d2, bounds=(t_lo_s, t_hi_s), method="bounded", options={"xatol": xatol_s})
+    return float(res.x), float(np.sqrt(res.fun))
 
 
 def _compare(engine, reference):
