@@ -88,7 +88,7 @@ def with_risk_and_store(res, folder: str, workers: int = 2) -> dict:
     import datetime as dt
     import os
 
-    from .pipeline.run import PARALLEL_RISK_MIN, risk_in_workers
+    from .pipeline.run import risk_in_workers, wants_workers
     from .risk.attach import DEFAULT_OBJECT_RADIUS_M, attach_risk
     from .risk.attention import Thresholds
     from .risk.covariance import CovarianceSources
@@ -98,7 +98,7 @@ def with_risk_and_store(res, folder: str, workers: int = 2) -> dict:
 
     t0 = time.perf_counter()
     encs = res.encounters
-    if workers > 1 and len(encs) >= PARALLEL_RISK_MIN:
+    if workers > 1 and wants_workers(encs):
         radii = {oid: DEFAULT_OBJECT_RADIUS_M for e in encs for oid in (e.primary, e.secondary)}
         risk_in_workers(encs, [], {}, None, radii, Thresholds(), workers)
     else:

@@ -249,6 +249,7 @@ def test_risk_on_worker_processes_equals_risk_in_process(monkeypatch):
     cfg = load_config(os.path.join(DEMO, "demo.toml"))
     serial = execute(dataclasses.replace(cfg, window_days=1.0, workers=1)).result.encounters
     monkeypatch.setattr(run_mod, "PARALLEL_RISK_MIN", 1)
+    assert run_mod.wants_workers(serial)
     parallel = execute(dataclasses.replace(cfg, window_days=1.0, workers=2)).result.encounters
     key = lambda e: (e.primary, e.secondary, round(e.tca_s, 3))  # noqa: E731
     a, b = sorted(serial, key=key), sorted(parallel, key=key)

@@ -83,7 +83,8 @@ def build_request(cfg: Config, inputs: Inputs, jd0: float, fr0: float) -> Screen
                             workers=cfg.workers)
 
 
-PARALLEL_RISK_MIN = 2000      # encounters from which the risk stage uses worker processes
+PARALLEL_RISK_MIN = 2000      # encounters from which the risk stage uses worker processes ...
+PARALLEL_RISK_MIN_SLOW = 16   # ... or slow passes (each a Monte Carlo along its path, ~0.1 s)
 RISK_CHUNKS_PER_WORKER = 4
 
 
@@ -96,13 +97,21 @@ def add_risk(cfg: Config, inputs: Inputs, result, progress: Progress | None = No
     encs = result.encounters
     ids = {e.primary for e in encs} | {e.secondary for e in encs}
     radii = {oid: cfg.radius_m(oid, oid in primary_ids) for oid in ids}
-    if cfg.workers <= 1 or len(encs) < PARALLEL_RISK_MIN:
+    if cfg.workers <= 1 or not wants_workers(encs):
         sources = CovarianceSources(oems=inputs.oems, configured=cfg.covariance.mapping(), history=history)
         attach_risk(encs, sources, radius_m=lambda oid: radii[oid], thresholds=cfg.thresholds,
                     progress=progress)
         return
     risk_in_workers(encs, inputs.oems, cfg.covariance.mapping(), history, radii, cfg.thresholds,
                     cfg.workers, executor, progress)
+
+
+def wants_workers(encs) -> bool:
+    """Whether the risk stage is worth worker processes (their start costs about a second)."""
+    from ..risk.attach import SLOW_PASS_KM_S
+
+    n_slow = sum(1 for e in encs if e.relative_speed_km_s < SLOW_PASS_KM_S)
+    return len(encs) >= PARALLEL_RISK_MIN or n_slow >= PARALLEL_RISK_MIN_SLOW
 
 
 def risk_in_workers(encs, oems, configured, history, radii, thresholds, workers: int,
