@@ -6,8 +6,9 @@ from __future__ import annotations
 from .. import CAUTION
 from ..display import fmt_log10, fmt_pc, fmt_speed, plural
 from ..risk.attention import LEVELS
-from ..risk.flags import PROXIMITY, legend_text
-from ..risk.series import CUMULATIVE_RULE, ENGINE, SERIES_PC_RULE, cumulative_by_primary, group
+from ..risk.flags import legend_text, with_proximity
+from ..risk.series import (CUMULATIVE_RULE, ENGINE, SERIES_PC_RULE, cumulative_by_primary, group,
+                           series_by_primary)
 from ..timeutil import iso_z
 
 UNUSABLE_LISTED = 5
@@ -18,7 +19,7 @@ def ranked(encounters):
 
 
 def series_flags(g) -> str:
-    return (g.worst.risk.get("flags", "") if g.worst.risk else "") + (PROXIMITY if g.proximity else "")
+    return with_proximity(g.worst.risk.get("flags", ""), g.proximity)
 
 
 def _passes(g) -> str:
@@ -83,13 +84,14 @@ def render_fleet(series, names: dict) -> list[str]:
     cum = cumulative_by_primary(series)
     if not cum or len(cum) >= 50:
         return []
+    per = series_by_primary(series)
     out = ["", f"Per spacecraft; {CUMULATIVE_RULE}:"]
     for pid in sorted(cum, key=lambda p: -cum[p]):
-        mine = [g for g in series if g.primary == pid]
+        mine = per[pid]
         worst = mine[0]
-        by = "  ".join(f"{lv} {sum(1 for g in mine if g.level_rank == k)}" for k, lv in enumerate(LEVELS))
+        counts = "  ".join(f"{lv} {sum(1 for g in mine if g.level_rank == k)}" for k, lv in enumerate(LEVELS))
         out.append(f"  {names.get(pid) or pid:<12.12} {pid:<10} cumulative Pc {fmt_pc(cum[pid]):>7}  "
-                   f"{by}  worst: {names.get(worst.secondary) or worst.secondary} "
+                   f"{counts}  worst: {names.get(worst.secondary) or worst.secondary} "
                    f"{iso_z(worst.worst.tca, 0)} Pc {fmt_pc(worst.pc)}")
     return out
 

@@ -6,6 +6,7 @@ from __future__ import annotations
 
 import re
 
+ALPHA5_LETTERS = "ABCDEFGHJKLMNPQRSTUVWXYZ"   # 10..33; I and O are not used
 CATALOG_NUMBER = re.compile(r"^[0-9]{1,9}$")
 ALPHA5 = re.compile(r"^[A-HJ-NP-Z][0-9]{4}$")
 INTERNATIONAL_DESIGNATOR = re.compile(r"^[0-9]{4}-[0-9]{3}[A-Z]{1,3}$")
@@ -28,8 +29,7 @@ def canonical_id(text: str) -> str:
     if CATALOG_NUMBER.match(t):
         return str(int(t))
     if ALPHA5.match(t.upper()):
-        head = "ABCDEFGHJKLMNPQRSTUVWXYZ".index(t[0].upper())
-        return str((10 + head) * 10000 + int(t[1:]))
+        return str((10 + ALPHA5_LETTERS.index(t[0].upper())) * 10000 + int(t[1:]))
     return t
 
 

@@ -8,27 +8,23 @@ from typing import Iterator
 from ..errors import ParseError
 from ..textfile import clean_name
 from ..timeutil import datetime_to_jd
-from .ids import canonical_id, cospar_designator, tle_designator
-from .record import ElementSet, Source, check_elements
-
-_ALPHA5 = "ABCDEFGHJKLMNPQRSTUVWXYZ"  # I and O are not used
-
+from .ids import ALPHA5_LETTERS, canonical_id, cospar_designator, tle_designator
+from .record import SGP4_MAX_SATNUM, ElementSet, Source, check_elements
 
 def catalog_id_to_int(text: str) -> int | None:
     """'00005' -> 5, 'A0001' -> 100001 (alpha-5), '123456789' -> 123456789; None if neither."""
     t = text.strip()
     if t.isdigit():
         return int(t)
-    if len(t) == 5 and t[0].upper() in _ALPHA5 and t[1:].isdigit():
-        return (10 + _ALPHA5.index(t[0].upper())) * 10000 + int(t[1:])
-    return None
+    c = canonical_id(t)
+    return int(c) if c.isdigit() else None
 
 
 def int_to_alpha5(n: int) -> str:
     if n < 100000:
         return f"{n:05d}"
     head, tail = divmod(n, 10000)
-    return _ALPHA5[head - 10] + f"{tail:04d}"
+    return ALPHA5_LETTERS[head - 10] + f"{tail:04d}"
 
 
 def checksum(line: str) -> int:
@@ -170,7 +166,7 @@ def _exp_field(x: float) -> str:
 def _tle_number(catalog_id: str) -> str:
     """The TLE's 5-column number: zero-padded digits, alpha-5 from 100000 up."""
     n = catalog_id_to_int(catalog_id)
-    return catalog_id if n is None or n > 339999 else int_to_alpha5(n)
+    return catalog_id if n is None or n > SGP4_MAX_SATNUM else int_to_alpha5(n)
 
 
 def format_tle(rec: ElementSet) -> tuple[str, str]:

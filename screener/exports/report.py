@@ -10,7 +10,7 @@ from .. import CAUTION
 from ..display import fmt_pc, fmt_speed, plural
 from ..risk.attention import LEVELS
 from ..risk.flags import legend_text
-from ..risk.series import CUMULATIVE_RULE, SERIES_PC_RULE, cumulative_by_primary
+from ..risk.series import CUMULATIVE_RULE, SERIES_PC_RULE, cumulative_by_primary, series_by_primary
 from ..timeutil import parse_iso
 
 TOP_N = 15
@@ -33,9 +33,10 @@ def _rows(series, now):
 
 def _fleet(series) -> list[str]:
     cum = cumulative_by_primary(series)
+    per = series_by_primary(series)
     out = []
     for pid in sorted(cum, key=lambda p: -cum[p]):
-        mine = [g for g in series if g.primary == pid]
+        mine = per[pid]
         w = mine[0].worst
         out.append(f"{w.get('primary_name') or pid} ({pid}): cumulative Pc {fmt_pc(cum[pid])}, "
                    f"{len(mine)} series, worst {LEVELS[mine[0].level_rank]} with "

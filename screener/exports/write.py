@@ -10,7 +10,7 @@ import tempfile
 
 from ..errors import ScreenerError
 from ..risk.attention import LEVEL_RANK
-from ..risk.flags import PROXIMITY, encounter_flags
+from ..risk.flags import encounter_flags, with_proximity
 from ..risk.series import (CUMULATIVE_RULE, SERIES_PC_RULE, STORED, cumulative_by_primary,
                            describe_series, group)
 from ..store import queries
@@ -47,8 +47,7 @@ def run_series(encs: list[dict]) -> list:
             e["series"], e["series_count"] = g.key, g.count
             e["worst_of_series"] = e is g.worst
             e["proximity"] = g.proximity
-            if g.proximity and PROXIMITY not in e["flags"]:
-                e["flags"] += PROXIMITY
+            e["flags"] = with_proximity(e["flags"], g.proximity)
     return series
 
 

@@ -42,10 +42,7 @@ def tie_oems(oems, primaries, catalog) -> None:
 
 def identities(primaries, oems, catalog) -> dict[str, Identity]:
     out: dict[str, Identity] = {}
-    for rec in catalog:
-        out[rec.catalog_id] = Identity(rec.catalog_id, rec.name, rec.intl_designator, "element set",
-                                       os.path.basename(rec.source.path))
-    for rec in primaries:
+    for rec in [*catalog, *primaries]:        # the fleet's own set wins for an object in both
         out[rec.catalog_id] = Identity(rec.catalog_id, rec.name, rec.intl_designator, "element set",
                                        os.path.basename(rec.source.path))
     for o in oems:

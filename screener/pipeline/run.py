@@ -201,8 +201,8 @@ def execute(cfg: Config, store=None, progress: Progress | None = None, cancel=No
         if degraded and cfg.fail_on_input_drop:
             raise ScreenerError(degraded[0] + "; nothing screened ([run] fail_on_input_drop = true)")
         if inputs.bad_records:
-            degraded.append(f"{inputs.bad_records} bad input record{'s' if inputs.bad_records != 1 else ''} "
-                            f"skipped (each is named in the log)")
+            degraded.append(f"{plural(inputs.bad_records, 'bad input record')} skipped (each is "
+                            f"named in the log)")
         note(f"loaded {len(inputs.primaries) + len(inputs.oems)} primaries, {len(inputs.catalog)} "
              f"catalog objects in {time.perf_counter() - t0:.1f} s")
         req = build_request(cfg, inputs, jd0, fr0)
@@ -222,8 +222,8 @@ def execute(cfg: Config, store=None, progress: Progress | None = None, cancel=No
         for oid, why in sorted(result.unusable.items()):
             note(f"not screened: {oid}: {why}")
         if result.unusable:
-            degraded.append(f"{len(result.unusable)} object{'s' if len(result.unusable) != 1 else ''} "
-                            f"not screened over part or all of the window (see the summary or log)")
+            degraded.append(f"{plural(len(result.unusable), 'object')} not screened over part or "
+                            f"all of the window (see the summary or log)")
         result.stats["degraded"] = list(degraded)
         n_enc = len(result.encounters)
         stages["screen_s"] = result.stats.get("wall_s", 0.0)

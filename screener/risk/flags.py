@@ -19,5 +19,10 @@ def encounter_flags(assumed: bool, dilution: bool, short_encounter_ok: bool | No
             + (SLOW if short_encounter_ok is False else ""))
 
 
+def with_proximity(flags: str, proximity: bool) -> str:
+    """An encounter's flags as shown in a series: P added when the series is a proximity pair."""
+    return flags + PROXIMITY if proximity and PROXIMITY not in flags else flags
+
+
 def legend_text(sep: str = "; ") -> str:
     return sep.join(f"{k} = {v}" for k, v in LEGEND)

@@ -15,16 +15,17 @@ import numpy as np
 from scipy import integrate, optimize, special, stats
 
 
-def _y_mass(xs, ym, sy, R, xm):
-    """P(|y - ym| <= chord half-width) at each x, accurate in the tails (uses ndtr on the side
-    where it is small)."""
-    half = np.sqrt(np.maximum(R * R - (xs - xm) ** 2, 0.0))
+def _chord_mass(ym, half, sy):
+    """P(|y - ym| <= half) for y ~ N(0, sy^2), accurate in the tails (uses ndtr on the side
+    where it is small: both ends on the right tail, Q(a) - Q(b); else Phi(b) - Phi(a))."""
     a = (ym - half) / sy
     b = (ym + half) / sy
-    # both on the right tail: Q(a) - Q(b); else Phi(b) - Phi(a)
-    right = a > 0
-    out = np.where(right, special.ndtr(-a) - special.ndtr(-b), special.ndtr(b) - special.ndtr(a))
-    return out
+    return np.where(a > 0, special.ndtr(-a) - special.ndtr(-b), special.ndtr(b) - special.ndtr(a))
+
+
+def _y_mass(xs, ym, sy, R, xm):
+    """The y-mass of the disk's chord at each x."""
+    return _chord_mass(ym, np.sqrt(np.maximum(R * R - (xs - xm) ** 2, 0.0)), sy)
 
 
 # Gauss-Legendre nodes on [-pi/2, pi/2] for the fixed rule (numpy's leggauss)
@@ -51,15 +52,8 @@ def pc_quadrature(xm: float, ym: float, sx: float, sy: float, R: float) -> float
 def pc_quadrature_fixed(xm: float, ym: float, sx, sy, R: float):
     """The quadrature with the fixed rule, for one geometry and any array of (sx, sy) (the
     covariance-scale search evaluates many sizes at once)."""
-    sx = np.asarray(sx, float)[..., None]
-    sy = np.asarray(sy, float)[..., None]
-    x = xm + R * np.sin(_GL_THETA)
-    half = R * np.cos(_GL_THETA)
-    gx = np.exp(-0.5 * (x / sx) ** 2) / (sx * math.sqrt(2 * math.pi))
-    a = (ym - half) / sy
-    b = (ym + half) / sy
-    ymass = np.where(a > 0, special.ndtr(-a) - special.ndtr(-b), special.ndtr(b) - special.ndtr(a))
-    return np.sum(_GL_W * gx * ymass * half, axis=-1)
+    xm, ym, sx, sy, R = np.broadcast_arrays(*(np.asarray(v, float) for v in (xm, ym, sx, sy, R)))
+    return _fixed_rows(xm, ym, sx, sy, R)
 
 
 BATCH_ROWS = 32768     # geometries x nodes per array operation in the batch functions (memory bound)
@@ -69,12 +63,9 @@ def _fixed_rows(xm, ym, sx, sy, R):
     """The fixed rule over rows: every argument an array of the same shape (..., )."""
     x = xm[..., None] + R[..., None] * np.sin(_GL_THETA)
     half = R[..., None] * np.cos(_GL_THETA)
-    sxe, sye = sx[..., None], sy[..., None]
+    sxe = sx[..., None]
     gx = np.exp(-0.5 * (x / sxe) ** 2) / (sxe * math.sqrt(2 * math.pi))
-    a = (ym[..., None] - half) / sye
-    b = (ym[..., None] + half) / sye
-    ymass = np.where(a > 0, special.ndtr(-a) - special.ndtr(-b), special.ndtr(b) - special.ndtr(a))
-    return np.sum(_GL_W * gx * ymass * half, axis=-1)
+    return np.sum(_GL_W * gx * _chord_mass(ym[..., None], half, sy[..., None]) * half, axis=-1)
 
 
 def pc_quadrature_many(xm, ym, sx, sy, R) -> np.ndarray:
@@ -135,21 +126,15 @@ def _max_over_rows(rows, grid_of, xm, ym, sx, sy, R, d, best_pc, best_k, edge) -
         r = rows[a:a + step]
         LG = grid_of(r)
         ks = np.exp(LG)
-
-        def grid_pc(r=r, ks=ks):
-            m = len(r)
-            K = ks
-            gx, gy = sx[r, None] * K, sy[r, None] * K
-            XM, YM, RR = (np.broadcast_to(v[r, None], (m, K.shape[1])) for v in (xm, ym, R))
-            ok = RR <= FIXED_RULE_MAX_R * np.minimum(gx, gy)
-            far = (d[r, None] - RR) > 10.0 * np.maximum(gx, gy)
-            vals = np.zeros((m, K.shape[1]))
-            vals[ok] = _fixed_rows(XM[ok], YM[ok], gx[ok], gy[ok], RR[ok])
-            for i, j in zip(*np.nonzero(~ok & ~far)):
-                vals[i, j] = pc_quadrature_adaptive(XM[i, j], YM[i, j], gx[i, j], gy[i, j], RR[i, j])
-            return vals
-
-        vals = grid_pc()
+        gx, gy = sx[r, None] * ks, sy[r, None] * ks
+        XM, YM, RR = (np.broadcast_to(v[r, None], ks.shape) for v in (xm, ym, R))
+        ok = RR <= FIXED_RULE_MAX_R * np.minimum(gx, gy)
+        # where the whole disk lies beyond 10 sigma (along the widest axis) Pc < 1e-22: taken as 0
+        far = (d[r, None] - RR) > 10.0 * np.maximum(gx, gy)
+        vals = np.zeros(ks.shape)
+        vals[ok] = _fixed_rows(XM[ok], YM[ok], gx[ok], gy[ok], RR[ok])
+        for i, j in zip(*np.nonzero(~ok & ~far)):
+            vals[i, j] = pc_quadrature_adaptive(XM[i, j], YM[i, j], gx[i, j], gy[i, j], RR[i, j])
         g = np.argmax(vals, axis=1)
         if edge is not None:
             at_end = (g == 0) | (g == width - 1)
@@ -167,19 +152,17 @@ def _max_over_rows(rows, grid_of, xm, ym, sx, sy, R, d, best_pc, best_k, edge) -
         c, e = hi - inv * (hi - lo), lo + inv * (hi - lo)
         fc, fe = f(c), f(e)
         for _ in range(GOLDEN_STEPS):
-            left = fc >= fe                      # the maximum lies in [lo, e]
+            # left: the maximum lies in [lo, e]; the old c becomes the new e and a new c is
+            # needed; right: [c, hi], the old e becomes c and a new e is needed.  Each row
+            # needs one new point per step.
+            left = fc >= fe
             hi = np.where(left, e, hi)
             lo = np.where(left, lo, c)
-            e_new = np.where(left, c, lo + inv * (hi - lo))
             c_new = np.where(left, hi - inv * (hi - lo), e)
-            fe_new = np.where(left, fc, np.nan)
-            fc_new = np.where(left, np.nan, fe)
-            need_c, need_e = np.isnan(fc_new), np.isnan(fe_new)
-            if need_c.any():
-                fc_new[need_c] = f(c_new)[need_c]
-            if need_e.any():
-                fe_new[need_e] = f(e_new)[need_e]
-            c, e, fc, fe = c_new, e_new, fc_new, fe_new
+            e_new = np.where(left, c, lo + inv * (hi - lo))
+            f_new = f(np.where(left, c_new, e_new))
+            fc, fe = np.where(left, f_new, fe), np.where(left, fc, f_new)
+            c, e = c_new, e_new
         mid = (lo + hi) / 2.0
         fm = f(mid)
         grid_best = vals[rr, g]

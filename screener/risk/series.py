@@ -88,10 +88,15 @@ def group(items: Iterable[T], acc: Access) -> list[Series[T]]:
 
 def cumulative_by_primary(series: Iterable[Series]) -> dict[str, float]:
     """Each primary's risk over the window: 1 - prod(1 - series Pc) over its series."""
-    by: dict[str, list[float]] = {}
+    return {k: cumulative([g.pc for g in v]) for k, v in sorted(series_by_primary(series).items())}
+
+
+def series_by_primary(series: Iterable[Series]) -> dict[str, list[Series]]:
+    """Each primary's series in the order given (most urgent first from group())."""
+    by: dict[str, list[Series]] = {}
     for g in series:
-        by.setdefault(g.primary, []).append(g.pc)
-    return {k: cumulative(v) for k, v in sorted(by.items())}
+        by.setdefault(g.primary, []).append(g)
+    return by
 
 
 def _rank_of(level: str | None) -> int:

@@ -57,21 +57,34 @@ def inputs_signature(inputs_json: str, config_json: str) -> str:
     return hashlib.sha256(json.dumps([files, as_of]).encode()).hexdigest()
 
 
+class RunSignatures:
+    """Each stored run's inputs_signature, read once per run and kept (a commit asks for the
+    same few runs once per encounter)."""
+
+    def __init__(self, conn: sqlite3.Connection):
+        self.conn = conn
+        self._sig: dict[int, str] = {}
+
+    def __call__(self, run_id: int) -> str:
+        if run_id not in self._sig:
+            r = self.conn.execute("SELECT inputs_json, config_json FROM runs WHERE id = ?",
+                                  (run_id,)).fetchone()
+            self._sig[run_id] = inputs_signature(r["inputs_json"], r["config_json"])
+        return self._sig[run_id]
+
+
 def event_trend(conn: sqlite3.Connection, event_id: int, miss_km: float, signature: str,
-                prev: sqlite3.Row | None, signatures: dict[int, str]) -> str:
+                prev: sqlite3.Row | None, signature_of: RunSignatures) -> str:
     """This run's trend for an event: fitted over the event's earlier runs whose inputs
     differ from this run's (the latest of each set of inputs), so re-screening unchanged
     inputs never turns a trend into "stable"; with no such run it keeps the latest trend."""
     if prev is None:
         return NEW
-    rows = conn.execute("SELECT e.run_id, e.miss_km, r.inputs_json, r.config_json FROM encounters e "
-                        "JOIN runs r ON r.id = e.run_id WHERE e.event_id = ? ORDER BY e.run_id",
+    rows = conn.execute("SELECT run_id, miss_km FROM encounters WHERE event_id = ? ORDER BY run_id",
                         (event_id,)).fetchall()
     points: list[tuple[str, float]] = []
     for r in rows:
-        sig = signatures.get(r["run_id"])
-        if sig is None:
-            sig = signatures[r["run_id"]] = inputs_signature(r["inputs_json"], r["config_json"])
+        sig = signature_of(r["run_id"])
         if sig == signature:
             continue
         if points and points[-1][0] == sig:

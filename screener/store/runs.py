@@ -15,7 +15,7 @@ from ..elements.omm import omm_fields
 from ..elements.record import SGP4_MAX_SATNUM
 from ..elements.tle import catalog_id_to_int
 from .db import Store
-from .events import change_of, event_trend, inputs_signature, match_events, run_diff
+from .events import RunSignatures, change_of, event_trend, inputs_signature, match_events, run_diff
 
 HOLD_ENV = "SCREENER_TEST_HOLD"   # tests only: pause at a named point inside the transaction
 
@@ -89,7 +89,7 @@ def commit_run(store: Store, *, name: str, config_snapshot: dict, inputs_files: 
                                tca_tolerance_s)
         rows = []
         signature = inputs_signature(json.dumps(inputs_files), json.dumps(config_snapshot, default=str))
-        signatures: dict[int, str] = {}
+        signatures = RunSignatures(conn)
         for e, t, m in zip(encs, tcas, matches):
             rk = e.risk
             rank = LEVEL_RANK[rk["attention"]]

@@ -19,7 +19,7 @@ from textual.widgets import Static
 from ..display import fmt_log10, fmt_pc, fmt_speed
 from ..risk.attach import SLOW_PASS_KM_S
 from ..risk.attention import LEVELS
-from ..risk.flags import PROXIMITY, encounter_flags
+from ..risk.flags import encounter_flags, with_proximity
 from ..store.queries import EncounterRow
 from .model import Item, RunView, fmt_until
 
@@ -45,7 +45,7 @@ def _miss(it: Item, now: float) -> str:
 
 def item_flags(it: Item) -> str:
     """The stored flags (A D S, risk/flags.py) plus P for a proximity series."""
-    return row_flags(it.row) + (PROXIMITY if it.proximity else "")
+    return with_proximity(row_flags(it.row), it.proximity)
 
 
 def row_flags(r: EncounterRow) -> str:

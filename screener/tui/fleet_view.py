@@ -12,7 +12,7 @@ from textual.widgets import DataTable, Footer, Static
 
 from ..display import fmt_pc
 from ..risk.attention import LEVELS
-from ..risk.series import CUMULATIVE_RULE, ROWS, cumulative_by_primary, group
+from ..risk.series import CUMULATIVE_RULE, ROWS, cumulative_by_primary, group, series_by_primary
 from .model import fmt_until
 from .widgets import CautionBar
 
@@ -21,9 +21,10 @@ def fleet_rows(rows, names: dict, now_unix_s: float) -> list[tuple]:
     """(primary id, cells...) per primary, most urgent first."""
     series = group(rows, ROWS)
     cum = cumulative_by_primary(series)
+    per = series_by_primary(series)
     out = []
     for pid in cum:
-        mine = [g for g in series if g.primary == pid]
+        mine = per[pid]
         worst = mine[0]
         w = worst.worst
         counts = [sum(1 for g in mine if g.level_rank == k) for k in range(len(LEVELS))]
