@@ -13,4 +13,10 @@ CAUTION = (
     "the official screening service, local regulation or licensed practice."
 )
 
-__all__ = ["CAUTION", "__version__"]
+MANEUVER_CAUTION = (
+    "Manoeuvre planning here is advisory: coordinate with the screening service and re-screen "
+    "with the operator's own orbit determination before any burn; local regulation and "
+    "licensed practice govern."
+)
+
+__all__ = ["CAUTION", "MANEUVER_CAUTION", "__version__"]

@@ -17,3 +17,16 @@ TWO_PI = 6.283185307179586
 # not orbit; speeds above local escape speed are not an element set's bound orbit).
 MIN_ALTITUDE_KM = 100.0
 MAX_RADIUS_KM = 500_000.0
+
+# Zonal harmonics of EGM96 (Lemoine et al. 1998, NASA/TP-1998-206861), unnormalised:
+# J_n = -sqrt(2n + 1) * C_n0 with the normalised C20 = -0.484165371736e-3 (EGM96 table),
+# C30 = 0.957254173792e-6 and C40 = 0.539873863789e-6 (from memory).  Used with the IERS mu
+# and the WGS-84 equatorial radius in the numerical propagator (propagation/cowell.py).
+J2_EGM96 = 1.082626683553e-3
+J3_EGM96 = -2.532656485e-6
+J4_EGM96 = -1.619621591e-6
+
+# Earth's nominal rotation rate, rad/s (WGS-84; IERS Conventions 2010 Table 1.1): the
+# atmosphere co-rotates with it in the drag model.
+EARTH_ROTATION_RAD_S = 7.292115e-5
+WGS84_FLATTENING = 1.0 / 298.257223563

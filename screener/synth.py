@@ -97,16 +97,20 @@ class Engineered:
     kind: str
 
 
-def engineer(primary: ElementSet, jd: float, fr: float, catalog_id: str, name: str, kind: str,
-             miss_km: float = 0.5, epoch_back_days: float = 0.0, rng=None) -> ElementSet:
-    """A secondary that passes `primary` near (jd, fr).  kind: head-on, crossing, slow, gto."""
+def engineer(primary: ElementSet | None, jd: float, fr: float, catalog_id: str, name: str, kind: str,
+             miss_km: float = 0.5, epoch_back_days: float = 0.0, rng=None,
+             state=None, angle_deg: float | None = None) -> ElementSet:
+    """A secondary that passes `primary` near (jd, fr).  kind: head-on, crossing, slow, gto.
+    `state` (r km, v km/s) passes that state instead (e.g. a manoeuvred trajectory's);
+    angle_deg fixes a crossing's angle (else drawn from 40 to 120 deg)."""
     rng = rng or np.random.default_rng(0)
-    r, v = state_of(primary, jd, fr)
+    r, v = (np.asarray(state[0], float), np.asarray(state[1], float)) if state is not None \
+        else state_of(primary, jd, fr)
     rhat = r / np.linalg.norm(r)
     if kind == "head-on":
         vs = rotate(v, rhat, 170.0)
     elif kind == "crossing":
-        vs = rotate(v, rhat, float(rng.uniform(40, 120)))
+        vs = rotate(v, rhat, float(rng.uniform(40, 120)) if angle_deg is None else angle_deg)
     elif kind == "slow":
         vs = v + rotate(v / np.linalg.norm(v), rhat, 90.0) * 0.004  # 4 m/s cross-track
     elif kind == "gto":

@@ -143,8 +143,11 @@ def make_parser() -> argparse.ArgumentParser:
     from .risk_cmd import add_risk_parser
     from .run_cmd import add_run_parsers
 
+    from .maneuver_cmd import add_maneuver_parser
+
     add_run_parsers(sub)
     add_risk_parser(sub)
+    add_maneuver_parser(sub)
     return ap
 
 

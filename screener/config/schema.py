@@ -91,6 +91,23 @@ class Config:
             return self.object_radius_m[object_id]
         return self.fleet_default_radius_m if is_primary else self.catalog_default_radius_m
 
+    @classmethod
+    def from_snapshot(cls, d: dict) -> "Config":
+        """The configuration a stored run was made with (the inverse of snapshot())."""
+        d = dict(d)
+        d["members"] = {k: FleetMember(**v) for k, v in (d.get("members") or {}).items()}
+        cov = d.get("covariance") or {}
+        d["covariance"] = CovarianceConfig(
+            objects={k: _growth(v) for k, v in (cov.get("objects") or {}).items()},
+            regimes={k: _growth(v) for k, v in (cov.get("regimes") or {}).items()},
+            use_history=bool(cov.get("use_history", True)))
+        d["thresholds"] = Thresholds(**(d.get("thresholds") or {}))
+        d["outputs"] = OutputsConfig(**(d.get("outputs") or {}))
+        if d.get("ric_km") is not None:
+            d["ric_km"] = tuple(d["ric_km"])
+        known = {f.name for f in dataclasses.fields(cls)}
+        return cls(**{k: v for k, v in d.items() if k in known})
+
     def snapshot(self) -> dict:
         d = dataclasses.asdict(self)
         d.pop("object_entries")
@@ -100,6 +117,10 @@ class Config:
             "regimes": {k: dataclasses.asdict(v) for k, v in self.covariance.regimes.items()},
             "use_history": self.covariance.use_history}
         return d
+
+
+def _growth(v: dict) -> SigmaGrowth:
+    return SigmaGrowth(tuple(v["sigma_km"]), tuple(v.get("growth_km_per_day", (0.0, 0.0, 0.0))))
 
 
 class _Reader:

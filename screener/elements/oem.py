@@ -286,30 +286,58 @@ def _covariances(lines, i, path, frame, out) -> int:
     return i + 1
 
 
+@dataclasses.dataclass
+class SegmentOut:
+    """One segment to write: t_s seconds from the whole Julian day start_jd."""
+    start_jd: float
+    t_s: np.ndarray
+    r_km: np.ndarray
+    v_km_s: np.ndarray
+    comments: tuple[str, ...] = ()
+    covariance: tuple[OemCovariance, ...] = ()
+
+
+def format_oem(object_name: str, object_id: str, segments: list[SegmentOut], frame: str = "TEME",
+               originator: str = "screener", degree: int = 7, creation: str | None = None,
+               comments: tuple[str, ...] = ()) -> str:
+    """OEM KVN text (CCSDS 502.0-B-3) of one object in one or more segments."""
+    from ..timeutil import iso_z, jd_to_datetime
+
+    def iso(jd, t):
+        return iso_z(jd_to_datetime(jd, t / 86400.0), 6)[:-1]
+
+    first = segments[0]
+    out = ["CCSDS_OEM_VERS = 2.0", *(f"COMMENT {c}" for c in comments),
+           f"CREATION_DATE = {creation or iso(first.start_jd, first.t_s[0])}",
+           f"ORIGINATOR = {originator}"]
+    for seg in segments:
+        out += ["", "META_START", f"OBJECT_NAME = {object_name}", f"OBJECT_ID = {object_id}",
+                "CENTER_NAME = EARTH", f"REF_FRAME = {frame}", "TIME_SYSTEM = UTC",
+                f"START_TIME = {iso(seg.start_jd, seg.t_s[0])}",
+                f"STOP_TIME = {iso(seg.start_jd, seg.t_s[-1])}",
+                "INTERPOLATION = LAGRANGE", f"INTERPOLATION_DEGREE = {degree}", "META_STOP", ""]
+        out += [f"COMMENT {c}" for c in seg.comments]
+        for t, r, v in zip(seg.t_s, seg.r_km, seg.v_km_s):
+            out.append(f"{iso(seg.start_jd, t)} {r[0]:.6f} {r[1]:.6f} {r[2]:.6f} "
+                       f"{v[0]:.9f} {v[1]:.9f} {v[2]:.9f}")
+        if seg.covariance:
+            out += ["", "COVARIANCE_START"]
+            for c in seg.covariance:
+                out.append(f"EPOCH = {iso(c.epoch_jd, c.epoch_fr * 86400.0)}")
+                out.append(f"COV_REF_FRAME = {c.frame}")
+                for row in range(6):
+                    out.append(" ".join(f"{c.cov_km[row, k]: .7e}" for k in range(row + 1)))
+            out.append("COVARIANCE_STOP")
+    return "\n".join(out) + "\n"
+
+
 def write_oem(path: str, object_name: str, object_id: str, start_jd: float,
               t_s: np.ndarray, r_km: np.ndarray, v_km_s: np.ndarray, frame: str = "TEME",
               originator: str = "screener", degree: int = 7,
               covariance: list[OemCovariance] | None = None, creation: str | None = None) -> None:
     """Write one-segment OEM KVN.  t_s counts seconds from the whole Julian day start_jd."""
-    from ..timeutil import iso_z, jd_to_datetime
-
-    def iso(t):
-        return iso_z(jd_to_datetime(start_jd, t / 86400.0), 6)[:-1]
-
-    out = ["CCSDS_OEM_VERS = 2.0", f"CREATION_DATE = {creation or iso(t_s[0])}",
-           f"ORIGINATOR = {originator}", "", "META_START", f"OBJECT_NAME = {object_name}",
-           f"OBJECT_ID = {object_id}", "CENTER_NAME = EARTH", f"REF_FRAME = {frame}",
-           "TIME_SYSTEM = UTC", f"START_TIME = {iso(t_s[0])}", f"STOP_TIME = {iso(t_s[-1])}",
-           "INTERPOLATION = LAGRANGE", f"INTERPOLATION_DEGREE = {degree}", "META_STOP", ""]
-    for t, r, v in zip(t_s, r_km, v_km_s):
-        out.append(f"{iso(t)} {r[0]:.6f} {r[1]:.6f} {r[2]:.6f} {v[0]:.9f} {v[1]:.9f} {v[2]:.9f}")
-    if covariance:
-        out += ["", "COVARIANCE_START"]
-        for c in covariance:
-            out.append(f"EPOCH = {iso_z(jd_to_datetime(c.epoch_jd, c.epoch_fr), 6)[:-1]}")
-            out.append(f"COV_REF_FRAME = {c.frame}")
-            for row in range(6):
-                out.append(" ".join(f"{c.cov_km[row, k]: .7e}" for k in range(row + 1)))
-        out.append("COVARIANCE_STOP")
+    text = format_oem(object_name, object_id,
+                      [SegmentOut(start_jd, t_s, r_km, v_km_s, covariance=tuple(covariance or ()))],
+                      frame=frame, originator=originator, degree=degree, creation=creation)
     with open(path, "w", encoding="utf-8") as fh:
-        fh.write("\n".join(out) + "\n")
+        fh.write(text)

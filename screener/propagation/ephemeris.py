@@ -35,6 +35,9 @@ class _TemeSegment:
     hermite: bool
 
 
+TOUCH_S = 1e-3      # segments whose stop and next start are this close cover a span together
+
+
 class OemTrajectory:
     """Interpolates an OEM (converted once to TEME at its nodes); never across segments and
     never outside a segment's usable span."""
@@ -59,11 +62,18 @@ class OemTrajectory:
         return [(s.start_jd, s.t0_s, s.t1_s) for s in self._segs]
 
     def covers(self, jd0: float, fr0: float, t0_s: float, t1_s: float) -> bool:
-        for s in self._segs:
-            off = (jd0 - s.start_jd) * 86400.0 + fr0 * 86400.0
-            if s.t0_s - 1e-6 <= off + t0_s and off + t1_s <= s.t1_s + 1e-6:
-                return True
-        return False
+        """Whether usable segments cover [t0_s, t1_s] of the window at (jd0, fr0).  Segments
+        that meet end to start (a manoeuvre splits an ephemeris so) cover it together; a gap
+        between them never does."""
+        spans = sorted(((jd0 - s.start_jd) * -86400.0 - fr0 * 86400.0 + s.t0_s,
+                        (jd0 - s.start_jd) * -86400.0 - fr0 * 86400.0 + s.t1_s) for s in self._segs)
+        merged: list[list[float]] = []
+        for a, b in spans:
+            if merged and a <= merged[-1][1] + TOUCH_S:
+                merged[-1][1] = max(merged[-1][1], b)
+            else:
+                merged.append([a, b])
+        return any(a - 1e-6 <= t0_s and t1_s <= b + 1e-6 for a, b in merged)
 
     def states(self, jd0: float, fr0: float, t_s: np.ndarray, strict: bool = False):
         t_s = np.atleast_1d(np.asarray(t_s, float))

@@ -12,20 +12,35 @@ from .pc import (chan_is_reliable, in_dilution_region, pc_chan, pc_max_line, pc_
 def assess(r1_km, v1_km_s, cov1_rtn_km2, r2_km, v2_km_s, cov2_rtn_km2, hbr_m: float,
            covariance_source: str) -> dict:
     """Covariances are 3x3 position blocks in each object's own RTN frame (km^2)."""
-    r1, v1, r2, v2 = (np.asarray(x, float) for x in (r1_km, v1_km_s, r2_km, v2_km_s))
-    c = ric_to_inertial_cov(cov1_rtn_km2, r1, v1) + ric_to_inertial_cov(cov2_rtn_km2, r2, v2)
-    rho, w = r2 - r1, v2 - v1
-    g = project(rho, w, c)
+    g, rho, w = _geometry(r1_km, v1_km_s, cov1_rtn_km2, r2_km, v2_km_s, cov2_rtn_km2)
     args = (g.xm_m, g.ym_m, g.sx_m, g.sy_m, hbr_m)
     pc_ref = pc_quadrature(*args)
-    ok, why = chan_is_reliable(*args)
-    if ok:
-        pc, method = pc_chan(*args), "Chan series"
-    else:
-        pc, method = pc_ref, f"2-D quadrature (Chan not used: {why})"
+    pc, method = _chosen(args, pc_ref)
     worst, _ = pc_max_scaled(*args)
     return _result(g, rho, w, hbr_m, covariance_source, pc, method, pc_ref, worst,
                    in_dilution_region(*args))
+
+
+def _geometry(r1_km, v1_km_s, cov1_rtn_km2, r2_km, v2_km_s, cov2_rtn_km2):
+    r1, v1, r2, v2 = (np.asarray(x, float) for x in (r1_km, v1_km_s, r2_km, v2_km_s))
+    c = ric_to_inertial_cov(cov1_rtn_km2, r1, v1) + ric_to_inertial_cov(cov2_rtn_km2, r2, v2)
+    rho, w = r2 - r1, v2 - v1
+    return project(rho, w, c), rho, w
+
+
+def _chosen(args, pc_ref: float | None = None) -> tuple[float, str]:
+    """The Pc every output reports: Chan's series where it is reliable, else the quadrature."""
+    ok, why = chan_is_reliable(*args)
+    if ok:
+        return pc_chan(*args), "Chan series"
+    pc_ref = pc_quadrature(*args) if pc_ref is None else pc_ref
+    return pc_ref, f"2-D quadrature (Chan not used: {why})"
+
+
+def pc_2d(r1_km, v1_km_s, cov1_rtn_km2, r2_km, v2_km_s, cov2_rtn_km2, hbr_m: float) -> float:
+    """assess()'s Pc alone (for searches that need many of them)."""
+    g, _rho, _w = _geometry(r1_km, v1_km_s, cov1_rtn_km2, r2_km, v2_km_s, cov2_rtn_km2)
+    return _chosen((g.xm_m, g.ym_m, g.sx_m, g.sy_m, hbr_m))[0]
 
 
 def assess_many(items) -> list[dict]:
@@ -34,10 +49,7 @@ def assess_many(items) -> list[dict]:
     as array operations over all of them (the same rules, so the same figures)."""
     geo = []
     for r1_km, v1_km_s, cov1, r2_km, v2_km_s, cov2, hbr_m, source in items:
-        r1, v1, r2, v2 = (np.asarray(x, float) for x in (r1_km, v1_km_s, r2_km, v2_km_s))
-        c = ric_to_inertial_cov(cov1, r1, v1) + ric_to_inertial_cov(cov2, r2, v2)
-        rho, w = r2 - r1, v2 - v1
-        geo.append((project(rho, w, c), rho, w, hbr_m, source))
+        geo.append((*_geometry(r1_km, v1_km_s, cov1, r2_km, v2_km_s, cov2), hbr_m, source))
     if not geo:
         return []
     xm, ym, sx, sy, R = (np.array(v) for v in zip(*[(g.xm_m, g.ym_m, g.sx_m, g.sy_m, h)
@@ -47,12 +59,7 @@ def assess_many(items) -> list[dict]:
     dilution = pc_quadrature_many(xm, ym, sx * 0.9, sy * 0.9, R) > pc_ref
     out = []
     for n, (g, rho, w, hbr_m, source) in enumerate(geo):
-        args = (g.xm_m, g.ym_m, g.sx_m, g.sy_m, hbr_m)
-        ok, why = chan_is_reliable(*args)
-        if ok:
-            pc, method = pc_chan(*args), "Chan series"
-        else:
-            pc, method = float(pc_ref[n]), f"2-D quadrature (Chan not used: {why})"
+        pc, method = _chosen((g.xm_m, g.ym_m, g.sx_m, g.sy_m, hbr_m), float(pc_ref[n]))
         out.append(_result(g, rho, w, hbr_m, source, pc, method, float(pc_ref[n]), float(worst[n]),
                            bool(dilution[n])))
     return out

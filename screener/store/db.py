@@ -14,7 +14,7 @@ import urllib.parse
 from ..environment import env_float
 from ..errors import ScreenerError
 
-SCHEMA_VERSION = 3
+SCHEMA_VERSION = 4
 ENV_STORE = "SCREENER_STORE"
 ENV_LOCK_WAIT = "SCREENER_LOCK_WAIT_S"
 DEFAULT_LOCK_WAIT_S = 60.0      # how long a writer waits for another run's commit to finish
@@ -101,6 +101,25 @@ MIGRATIONS: list[str] = [
     # NULL for encounters stored before, which readers derive from the other columns
     """
     ALTER TABLE encounters ADD COLUMN flags TEXT;
+    """,
+    # 3 -> 4: manoeuvre trades made for an event (screener maneuver, the TUI's trade screen):
+    # what was considered, the chosen burn and its re-screen, kept with the event's history
+    """
+    CREATE TABLE trades (
+        id INTEGER PRIMARY KEY,
+        event_id INTEGER REFERENCES events(id),
+        run_id INTEGER REFERENCES runs(id),
+        encounter_id INTEGER REFERENCES encounters(id),
+        created_utc TEXT NOT NULL,
+        target TEXT NOT NULL,
+        chosen_dv_m_s REAL,
+        chosen_burn_utc TEXT,
+        created_count INTEGER,
+        worsened_count INTEGER,
+        oem_path TEXT,
+        trade_json TEXT NOT NULL
+    );
+    CREATE INDEX trades_event ON trades(event_id, id);
     """,
 ]
 
