@@ -234,3 +234,45 @@ def test_a_pc_target_is_met_and_bad_requests_exit_2_with_one_line(first, tmp_pat
         assert "Traceback" not in p.stderr
     with Store(store) as s:
         assert len(trades_for_event(s, event)) == kept == 1
+
+
+async def test_the_tui_trade_screen_at_80x24(first):
+    """From the event view, m opens the trade (computed in a worker): a row per burn option
+    with the smallest meeting burn highlighted, the Pc plot, and Enter re-screens that burn in
+    a background worker and keeps the trade.  Driven by textual's Pilot at 80x24."""
+    import datetime as dt
+
+    from screener.tui import make_app
+    from screener.tui.event_view import EventScreen
+    from screener.tui.trade_view import TradeScreen
+
+    store, event, out, _ = first
+    now = dt.datetime(2026, 12, 3, tzinfo=dt.timezone.utc).timestamp()
+    with Store(store) as s:
+        before = len(trades_for_event(s, event))
+    app = make_app(store, now=lambda: now)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await pilot.press("enter")
+        await pilot.pause()
+        assert isinstance(app.screen, EventScreen)
+        await pilot.press("m")
+        await pilot.pause()
+        assert isinstance(app.screen, TradeScreen)
+        await app.workers.wait_for_complete()
+        await pilot.pause()
+        screen = app.screen
+        table = screen.query_one("#trade-table")
+        assert table.row_count == len(screen.trade.options) == 20
+        assert screen.trade.options[table.cursor_row] is screen.trade.chosen
+        assert "Pc vs delta-v" in str(screen.query_one("#trade-plot").render())
+        assert "smallest:" in str(screen.query_one("#trade-status").render())
+        await pilot.press("enter")
+        await pilot.pause()
+        await app.workers.wait_for_complete()
+        await pilot.pause()
+        result = str(screen.query_one("#trade-result").render())
+        assert "re-screen:" in result and "kept as trade" in result
+        assert "Advisory only" in str(screen.query_one(".caution").render())
+    with Store(store) as s:
+        rows = trades_for_event(s, event)
+    assert len(rows) == before + 1 and os.path.exists(rows[-1]["oem_path"])

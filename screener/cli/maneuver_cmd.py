@@ -131,7 +131,7 @@ def cmd_maneuver(args) -> int:
         out["rescreen"] = None
         oem_text = None
         if trade.chosen is not None:
-            oem_text, oem = mr.chosen_oem(ctx, trade, model)
+            oem_text, oem = mr.burn_oem(ctx, trade.chosen, model)
             if args.no_rescreen:
                 out["rescreen"] = {"skipped": "--no-rescreen"}
             elif args.cdm and not args.catalog:

@@ -18,8 +18,8 @@ from ..maneuver.burn import apply_burn
 from ..maneuver.closest import Covariances
 from ..maneuver.compare import Before, compare, rule_text
 from ..maneuver.ephemeris_out import manoeuvred_oem_text, read_back
-from ..maneuver.trade import (DEFAULT_DIRECTIONS, DEFAULT_LEADS_ORBITS, DEFAULT_MAX_DV_M_S, Target, Trade, TradeEvent,
-                              burn_times, run_trade)
+from ..maneuver.trade import (DEFAULT_DIRECTIONS, DEFAULT_LEADS_ORBITS, DEFAULT_MAX_DV_M_S,
+                              BurnOption, Target, Trade, TradeEvent, burn_times, run_trade)
 from ..maneuver.tracks import NumericalTrack, OemTrack, Sgp4Track
 from ..propagation.cowell import DEFAULT_MODEL, ForceModel
 from ..propagation.orbit import osculating
@@ -172,7 +172,7 @@ def parse_target(miss_km: float | None, pc: float | None, radial_km: float | Non
 
 
 def rescreen(ctx: Context, oem, workers: int, warn: Warn, progress: Progress | None = None,
-             catalog_paths: list[str] | None = None) -> dict:
+             catalog_paths: list[str] | None = None, cancel=None, executor=None) -> dict:
     """Screen the manoeuvred primary (an OEM) against the run's catalog over the window, with
     risk as the run attached it; compare with the run's encounters of that primary."""
     from ..screening.engine import ScreeningRequest, screen
@@ -201,7 +201,7 @@ def rescreen(ctx: Context, oem, workers: int, warn: Warn, progress: Progress | N
     catalog = [r for r in inputs.catalog if r.catalog_id != ev.primary_id]
     req = ScreeningRequest(catalog=catalog, jd0=ev.jd0, fr0=ev.fr0, duration_s=ev.window_s,
                            volume=volume_of(cfg), primary_oems=[oem], workers=workers)
-    result = screen(req, progress=progress)
+    result = screen(req, progress=progress, cancel=cancel, executor=executor)
     # the manoeuvred primary keeps the element-set age of the orbit it came from, so its
     # covariance is estimated as the run estimated it
     if ctx.primary_rec is not None:
@@ -234,8 +234,13 @@ def rescreen(ctx: Context, oem, workers: int, warn: Warn, progress: Progress | N
     return out
 
 
-def trade_output(trade: Trade) -> dict:
+def trade_output(trade: Trade, picked: BurnOption | None = None) -> dict:
+    """The trade as JSON (the `screener maneuver --json` object, without its re-screen);
+    `picked` replaces the trade's own choice (a row picked in the TUI)."""
     out = trade.to_json()
+    if picked is not None:
+        out["chosen"] = picked.to_json(trade.event)
+        out["picked_by_user"] = True
     out["caution"] = [CAUTION, MANEUVER_CAUTION]
     out["burn_model"] = ("impulsive delta-v in the primary's RTN frame at the burn time; the "
                          "manoeuvred trajectory is the screened one plus (burned - unburned), "
@@ -246,16 +251,15 @@ def trade_output(trade: Trade) -> dict:
     return out
 
 
-def chosen_oem(ctx: Context, trade: Trade, model: ForceModel) -> tuple[str, object]:
-    """OEM text of the chosen burn over the whole window, and the same read back."""
+def burn_oem(ctx: Context, option: BurnOption, model: ForceModel) -> tuple[str, object]:
+    """OEM text of one burn's trajectory over the whole window, and the same read back."""
     ev = ctx.event
-    ch = trade.chosen
-    track = apply_burn(ev.primary, ch.burn_s, ch.dv_rtn_m_s, ev.window_s, model)
-    dv = ", ".join(f"{x:+.5f}" for x in ch.dv_rtn_m_s)
-    comment = (f"burn at {ev.iso(ch.burn_s, 3)}: impulsive delta-v [R, T, N] = [{dv}] m/s "
-               f"({ch.dv_m_s * 100:.3f} cm/s, {ch.direction}), to clear {ev.secondary_id} "
+    track = apply_burn(ev.primary, option.burn_s, option.dv_rtn_m_s, ev.window_s, model)
+    dv = ", ".join(f"{x:+.5f}" for x in option.dv_rtn_m_s)
+    comment = (f"burn at {ev.iso(option.burn_s, 3)}: impulsive delta-v [R, T, N] = [{dv}] m/s "
+               f"({option.dv_m_s * 100:.3f} cm/s, {option.direction}), to clear {ev.secondary_id} "
                f"{ev.secondary_name} at {ev.iso(ev.tca_s, 3)}")
-    text = manoeuvred_oem_text(track, ch.burn_s, ev.window_s, ev.primary_name or ev.primary_id,
+    text = manoeuvred_oem_text(track, option.burn_s, ev.window_s, ev.primary_name or ev.primary_id,
                                ev.primary_id, comment, ev.covariances.primary_rtn_km2,
                                ev.primary_period_s,
                                creation=iso_z(jd_to_datetime(ev.jd0, ev.fr0), 3)[:-1])

@@ -132,6 +132,7 @@ class EventScreen(Screen):
         Binding("2", "plot('plane')", "Plane"),
         Binding("3", "plot('history')", "History"),
         Binding("e", "export", "Export CDM"),
+        Binding("m", "trade", "Trade burn"),
         Binding("y", "copy", "Copy line", show=False),
         Binding("q", "app.quit", "Quit", show=False),
     ]
@@ -208,6 +209,11 @@ class EventScreen(Screen):
 
     def action_export(self) -> None:
         self.app.export_cdm(self.encounter_id)
+
+    def action_trade(self) -> None:
+        from .trade_view import TradeScreen
+
+        self.app.push_screen(TradeScreen(self.detail["event_id"]))
 
     def action_copy(self) -> None:
         d = self.detail

@@ -151,3 +151,56 @@ def history_lines(history: list[dict], cols: int, rows: int) -> list[str]:
     else:
         out.append("(one run so far: no trend yet)")
     return out
+
+
+PC_PLOT_FLOOR = 1e-12
+
+
+def trade_plot(curves: Sequence[tuple[Sequence[tuple[float, float]], bool]], cols: int, rows: int,
+               target_pc: float | None = None, mark_dv: float | None = None) -> list[str]:
+    """log10 Pc against delta-v (log scale, cm/s) for several burn times of one direction:
+    curves are (points [(dv m/s, Pc)], selected); the selected one is drawn solid, the others
+    dotted; the Pc target is a dashed level and the picked delta-v a dotted mark."""
+    lab_w = 9
+    c = Canvas(cols - lab_w - 1, rows - 2)
+    pts = [(math.log10(dv * 100.0), math.log10(max(pc, PC_PLOT_FLOOR)))
+           for curve, _sel in curves for dv, pc in curve if dv > 0]
+    if not pts:
+        return ["Pc against delta-v: no data"]
+    xs, ys = zip(*pts)
+    x0, x1 = min(xs), max(xs)
+    y_extra = [math.log10(target_pc)] if target_pc else []
+    y0, y1 = min(ys + tuple(y_extra)), max(ys + tuple(y_extra))
+    x1 = x1 if x1 > x0 else x0 + 1
+    y1 = y1 if y1 > y0 else y0 + 1
+
+    def px(v):
+        return (v - x0) / (x1 - x0) * (c.w - 1)
+
+    def py(v):
+        return (v - y0) / (y1 - y0) * (c.h - 1)
+
+    if target_pc:
+        for xx in range(0, c.w, 3):
+            c.dot(xx, py(math.log10(target_pc)))
+    if mark_dv and mark_dv > 0:
+        for yy in range(0, c.h, 2):
+            c.dot(px(math.log10(mark_dv * 100.0)), yy)
+    for curve, selected in curves:
+        line = [(px(math.log10(dv * 100.0)), py(math.log10(max(pc, PC_PLOT_FLOOR))))
+                for dv, pc in curve if dv > 0]
+        for a, b in zip(line, line[1:]):
+            if selected:
+                c.line(*a, *b)
+            else:
+                n = int(max(abs(b[0] - a[0]), abs(b[1] - a[1])) // 3) + 1
+                for k in range(n + 1):
+                    c.dot(a[0] + (b[0] - a[0]) * k / n, a[1] + (b[1] - a[1]) * k / n)
+    body = c.text()
+    out = ["log10 Pc vs delta-v, cm/s (log): picked burn time solid, others dotted"]
+    for k, line in enumerate(body):
+        lab = f"{y1:.1f}" if k == 0 else f"{y0:.1f}" if k == len(body) - 1 else ""
+        out.append(f"{lab:>{lab_w}} {line}")
+    axis = _fmt(10 ** x0).ljust(c.cols // 2) + _fmt(10 ** x1).rjust(c.cols - c.cols // 2)
+    out.append(" " * (lab_w + 1) + axis)
+    return out
