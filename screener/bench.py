@@ -189,8 +189,8 @@ def run_trade(args, prim, cat, jd0, fr0, vol, days: float = 3.0) -> None:
     from .risk.attach import attach_risk
     from .risk.covariance import CovarianceSources, assumed
 
-    print(f"== manoeuvre trade: 5 burn times x 2 directions, re-screen vs {len(cat)} objects, "
-          f"{days:g} days")
+    print(f"== manoeuvre trade: 5 burn times x 2 directions, re-screen vs {len(cat)} objects "
+          f"from the burn to the end of a {days:g}-day window")
     tca_s = 1.5 * 86400.0
     sec = synth.engineer(prim, jd0, fr0 + tca_s / 86400.0, "T0001", "TRADE-SEC", "crossing",
                          miss_km=0.05, rng=np.random.default_rng(9))
@@ -215,8 +215,9 @@ def run_trade(args, prim, cat, jd0, fr0, vol, days: float = 3.0) -> None:
     oem_s = time.perf_counter() - t0
     t0 = time.perf_counter()
     res = screen(ScreeningRequest(catalog=[r for r in cat if r.catalog_id != prim.catalog_id],
-                                  primary_oems=[oem], jd0=jd0, fr0=fr0, duration_s=ev.window_s,
-                                  volume=vol, workers=args.workers))
+                                  primary_oems=[oem], jd0=jd0, fr0=fr0 + ch.burn_s / 86400.0,
+                                  duration_s=ev.window_s - ch.burn_s, volume=vol,
+                                  workers=args.workers))
     attach_risk(res.encounters, CovarianceSources())
     rescreen_s = time.perf_counter() - t0
     wall = time.perf_counter() - t_all

@@ -137,7 +137,8 @@ def cmd_maneuver(args) -> int:
             elif args.cdm and not args.catalog:
                 out["rescreen"] = {"skipped": "a CDM-based trade needs --catalog to re-screen"}
             else:
-                out["rescreen"] = mr.rescreen(ctx, oem, workers, warn, progress, args.catalog)
+                out["rescreen"] = mr.rescreen(ctx, oem, trade.chosen.burn_s, workers, warn,
+                                              progress, args.catalog)
     finally:
         if progress:
             progress.close()
@@ -197,8 +198,9 @@ def print_trade(out: dict, stream) -> None:
         cl = rs["cleared"]
         fate = (f"miss {cl['miss_km'] * 1000:.0f} m, Pc {fmt_pc(cl['pc'])}" if cl["in_volume"]
                 else "outside the screening volume")
-        print(f"re-screen against {rs['catalog_objects']:,} objects over {rs['window_days']:g} d "
-              f"({rs['volume']}): {len(rs['encounters'])} encounters; the event: {fate}", file=stream)
+        print(f"re-screen against {rs['catalog_objects']:,} objects from the burn to the window's end "
+              f"({rs['window_days']:.2f} d, {rs['volume']}): {len(rs['encounters'])} encounters; "
+              f"the event: {fate}", file=stream)
         for key, word in (("created", "new"), ("worsened", "worse")):
             for e in rs[key]:
                 extra = ""

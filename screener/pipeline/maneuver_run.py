@@ -171,10 +171,12 @@ def parse_target(miss_km: float | None, pc: float | None, radial_km: float | Non
     return Target(kind, float(value))
 
 
-def rescreen(ctx: Context, oem, workers: int, warn: Warn, progress: Progress | None = None,
-             catalog_paths: list[str] | None = None, cancel=None, executor=None) -> dict:
-    """Screen the manoeuvred primary (an OEM) against the run's catalog over the window, with
-    risk as the run attached it; compare with the run's encounters of that primary."""
+def rescreen(ctx: Context, oem, burn_s: float, workers: int, warn: Warn,
+             progress: Progress | None = None, catalog_paths: list[str] | None = None,
+             cancel=None, executor=None) -> dict:
+    """Screen the manoeuvred primary (an OEM) against the run's catalog from the burn to the
+    window's end (before the burn its trajectory is the run's own, and so are its encounters),
+    with risk as the run attached it; compare with the run's encounters of that primary."""
     from ..screening.engine import ScreeningRequest, screen
     from .inputs import file_digest, load_inputs
     from .run import add_risk, volume_of
@@ -199,8 +201,10 @@ def rescreen(ctx: Context, oem, workers: int, warn: Warn, progress: Progress | N
                      f"uses the file as it is now")
     inputs = load_inputs(cfg, ev.jd0, ev.fr0, lambda m: None)
     catalog = [r for r in inputs.catalog if r.catalog_id != ev.primary_id]
-    req = ScreeningRequest(catalog=catalog, jd0=ev.jd0, fr0=ev.fr0, duration_s=ev.window_s,
-                           volume=volume_of(cfg), primary_oems=[oem], workers=workers)
+    from_s = max(0.0, burn_s)
+    req = ScreeningRequest(catalog=catalog, jd0=ev.jd0, fr0=ev.fr0 + from_s / 86400.0,
+                           duration_s=ev.window_s - from_s, volume=volume_of(cfg),
+                           primary_oems=[oem], workers=workers)
     result = screen(req, progress=progress, cancel=cancel, executor=executor)
     # the manoeuvred primary keeps the element-set age of the orbit it came from, so its
     # covariance is estimated as the run estimated it
@@ -225,7 +229,9 @@ def rescreen(ctx: Context, oem, workers: int, warn: Warn, progress: Progress | N
     target_tca = unix_s(ev.jd0, ev.fr0 + ev.tca_s / 86400.0)
     out = compare(ctx.before, after, ev.secondary_id, target_tca, ctx.tca_tol_s)
     out.update({"encounters": after, "catalog_objects": len(catalog),
-                "window_start": ev.iso(0.0), "window_days": ev.window_s / 86400.0,
+                "window_start": ev.iso(from_s), "window_days": (ev.window_s - from_s) / 86400.0,
+                "window_note": "from the burn to the run window's end (before the burn the "
+                               "trajectory, and its encounters, are the run's)",
                 "volume": req.volume.describe(), "compare_rule": rule_text(ctx.tca_tol_s),
                 "wall_s": result.stats.get("wall_s", 0.0),
                 "compared_with": (f"run {ev.run_id}'s encounters of {ev.primary_id}"

@@ -227,6 +227,7 @@ def _peak_rss_mb() -> float:
 DECAY_CODES = (1, 6, codes.BELOW_100_KM)
 DECAY_PERIGEE_KM = 400.0      # only objects with a perigee below this altitude are pre-checked
 DECAY_PROBE_STEP_S = 60.0
+DECAY_COARSE_STEP_S = 600.0
 
 
 def _first_decay(code: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
@@ -259,17 +260,29 @@ def _apply_decay(pop: Population, t: np.ndarray, code: np.ndarray,
 def decay_cutoffs(catalog: Sequence[ElementSet], jd0: float, fr0: float,
                   duration_s: float) -> dict[str, float]:
     """First re-entry time in the window (s) of each low-perigee object that re-enters: a
-    cheap whole-window probe, so that every task ignores it from then on."""
+    cheap whole-window probe, so that every task ignores it from then on.  Probed at
+    DECAY_COARSE_STEP_S, then at DECAY_PROBE_STEP_S over the coarse interval before each first
+    decay found (SGP4's decay codes persist once reached, and an object whose perigee dips
+    under the 100 km gate dips deeper on each later pass), so the cutoff is the fine probe's
+    for a tenth of its samples: low-perigee objects are mostly transfer orbits on the slower
+    deep-space branch, and the whole-window probe ran serially before any task started."""
     from ..propagation.sgp4_batch import Sgp4Batch
     from ..constants import RE_WGS72_KM
 
     low = [r for r in catalog if r.orbit().perigee_radius_km - RE_WGS72_KM < DECAY_PERIGEE_KM]
     if not low:
         return {}
-    t = _grid(0.0, duration_s, DECAY_PROBE_STEP_S)
+    t = _grid(0.0, duration_s, DECAY_COARSE_STEP_S)
     _, _, code = Sgp4Batch(low).states(jd0, fr0, t)
     rows, first = _first_decay(code)
-    return {low[k].catalog_id: float(t[f]) for k, f in zip(rows, first)}
+    out = {}
+    for k, f in zip(rows, first):
+        lo = t[f - 1] if f > 0 else t[f]
+        fine = _grid(lo, float(t[f]), DECAY_PROBE_STEP_S)
+        _, _, c = Sgp4Batch([low[k]]).states(jd0, fr0, fine)
+        hit, at = _first_decay(c)
+        out[low[k].catalog_id] = float(fine[at[0]]) if len(hit) else float(t[f])
+    return out
 
 
 def _bounds(rec: ElementSet, task: Task):

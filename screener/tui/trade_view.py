@@ -41,7 +41,7 @@ def rescreen_lines(out: dict) -> list[str]:
     fate = (f"miss {cl['miss_km'] * 1000:.0f} m, Pc {fmt_pc(cl['pc'])}" if cl["in_volume"]
             else "outside the screening volume")
     lines = [f"re-screen: {len(out['encounters'])} encounters against {out['catalog_objects']:,} "
-             f"objects over {out['window_days']:g} d; the event: {fate}"]
+             f"objects from the burn ({out['window_days']:.2f} d); the event: {fate}"]
     for key, word in (("created", "NEW"), ("worsened", "WORSE")):
         for e in out[key]:
             lines.append(f"  {word}: {e['secondary_name'] or e['secondary']} {e['tca'][5:16].replace('T', ' ')}Z "
@@ -206,7 +206,7 @@ class TradeScreen(Screen):
         try:
             text, oem = mr.burn_oem(self.ctx, pick, self.model)
             out = mr.trade_output(self.trade, pick)
-            out["rescreen"] = mr.rescreen(self.ctx, oem, 1, warnings.append, progress,
+            out["rescreen"] = mr.rescreen(self.ctx, oem, pick.burn_s, 1, warnings.append, progress,
                                           cancel=cancel, executor=pool)
             folder = os.path.join(os.path.dirname(os.path.abspath(self.app.store_path)), "maneuvers")
             os.makedirs(folder, exist_ok=True)
