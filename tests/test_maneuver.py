@@ -277,3 +277,22 @@ async def test_the_tui_trade_screen_at_80x24(first):
     with Store(store) as s:
         rows = trades_for_event(s, event)
     assert len(rows) == before + 1 and os.path.exists(rows[-1]["oem_path"])
+
+
+def test_a_trade_from_the_exported_cdm_agrees_with_the_stored_one(first, tmp_path):
+    """--cdm: the event's CDM (as `screener export` writes it) traded on its own, both TCA
+    states propagated numerically instead of by SGP4: the 1 km target is met to 1 %, and the
+    smallest delta-v agrees with the store-based trade to 5 % (two independent trajectory
+    paths to the same answer)."""
+    store, _event, out_store, _ = first
+    p = screener("export", "--store", store, "--out", str(tmp_path), "--cdm", "all", "--report", "none")
+    assert p.returncode == 0, p.stderr
+    cdm = next(f for f in (tmp_path / "cdm").iterdir() if "41002" in f.name)
+    res = tmp_path / "cdm-trade.json"
+    p = screener("maneuver", "--cdm", str(cdm), "--target-miss-km", "1", "--json", str(res), "--quiet")
+    assert p.returncode == 0, p.stderr
+    d = json.loads(res.read_text())
+    assert 1.0 <= d["chosen"]["new_miss_km"] <= 1.01
+    assert d["chosen"]["direction"] == out_store["chosen"]["direction"]
+    assert d["chosen"]["dv_m_s"] == pytest.approx(out_store["chosen"]["dv_m_s"], rel=0.05)
+    assert d["rescreen"]["skipped"].startswith("a CDM-based trade needs --catalog")

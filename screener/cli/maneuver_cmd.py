@@ -175,9 +175,11 @@ def print_trade(out: dict, stream) -> None:
     pc = ev["pc"]
     print(f"{ev['primary_name']} ({ev['primary']}) x {ev['secondary_name']} ({ev['secondary']})  "
           f"TCA {ev['tca'][:23]}Z", file=stream)
+    base = out.get("baseline") or {}
     print(f"  now: miss {ev['miss_km'] * 1000:.0f} m"
-          + (f", Pc {fmt_pc(pc)}" if pc == pc else "") + f"; target: {out['target']['text']}",
-          file=stream)
+          + (f", Pc {fmt_pc(pc)} (as screened)" if pc == pc else "")
+          + (f"; the trade's model: Pc {fmt_pc(base['new_pc'])}" if base else "")
+          + f"; target: {out['target']['text']}", file=stream)
     for n in out["notes"]:
         print(f"  note: {n}", file=stream)
     if out["burns"]:
@@ -212,5 +214,6 @@ def print_trade(out: dict, stream) -> None:
                       f" {e['attention']}{extra}", file=stream)
         if not rs["created"] and not rs["worsened"]:
             print("  no encounter created or worsened by the burn", file=stream)
+        print(f"  compared with {rs['compared_with']}", file=stream)
     elif rs:
         print(f"re-screen: skipped ({rs['skipped']})", file=stream)

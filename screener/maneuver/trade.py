@@ -20,6 +20,7 @@ import numpy as np
 from scipy.optimize import brentq
 
 from ..propagation.cowell import DEFAULT_MODEL, ForceModel
+from ..risk.attach import SLOW_PASS_KM_S
 from ..timeutil import iso_z, jd_to_datetime
 from .burn import LinearTrack, apply_burn, linearise
 from .closest import Approach, Covariances, closest_approach, pc_of, pc_only
@@ -162,6 +163,7 @@ class Trade:
         return {"event": self.event.summary_json(), "target": self.target.to_json(),
                 "max_dv_m_s": self.max_dv_m_s, "force_model": self.model.describe(),
                 "already_met": self.already_met, "notes": list(self.notes),
+                "baseline": self.baseline.to_json(self.event) if self.baseline else None,
                 "burns": [o.to_json(self.event) for o in self.options],
                 "chosen": ch.to_json(self.event) if ch else None,
                 "curves": [{"burn_time": self.event.iso(b, 3), "direction": d,
@@ -277,6 +279,11 @@ def run_trade(ev: TradeEvent, target: Target, times_s: list[float],
     baseline = BurnOption(ev.tca_s, "+T", 0.0, base_a, base_risk,
                           target.score(base_a, base_risk["pc"]) >= 0.0, "no burn")
     trade = Trade(ev, target, max_dv_m_s, model, [], {}, baseline.meets, notes, baseline)
+    if ev.relative_speed_km_s < SLOW_PASS_KM_S:
+        notes.append(f"slow encounter ({ev.relative_speed_km_s * 1000:.0f} m/s): the trade's Pc "
+                     f"is the 2-D short-encounter value, doubtful here (the screening's Pc for "
+                     f"such a pass comes from a Monte Carlo along the path); prefer a miss or "
+                     f"radial target")
     if baseline.meets:
         notes.append(f"the event already meets the target ({target.describe()}): no burn needed")
         return trade

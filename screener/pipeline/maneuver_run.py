@@ -236,7 +236,8 @@ def rescreen(ctx: Context, oem, burn_s: float, workers: int, warn: Warn,
                 "wall_s": result.stats.get("wall_s", 0.0),
                 "compared_with": (f"run {ev.run_id}'s encounters of {ev.primary_id}"
                                   if ctx.cfg is not None else "nothing (a CDM has no run): every "
-                                  "encounter is listed as created")})
+                                  "encounter is listed as created; risk from the catalog's "
+                                  "assumed covariances, not the CDM's")})
     return out
 
 
