@@ -132,7 +132,7 @@ class EventScreen(Screen):
         Binding("2", "plot('plane')", "Plane"),
         Binding("3", "plot('history')", "History"),
         Binding("e", "export", "Export CDM"),
-        Binding("m", "trade", "Trade burn"),
+        Binding("m", "trade", "Burn"),      # the manoeuvre trade (tui/trade_view.py)
         Binding("y", "copy", "Copy line", show=False),
         Binding("q", "app.quit", "Quit", show=False),
     ]
