@@ -85,7 +85,7 @@ def scenario(n, jd0, fr0, n_primaries=10, seed=3, dense=True):
     return prims, eng, eng + [rest[k] for k in order]
 
 
-def with_risk_and_store(res, folder: str, workers: int = 2) -> dict:
+def with_risk_and_store(res, folder: str, workers: int = 2, executor=None) -> dict:
     """Attach risk (as `screener screen` does: on the workers when there are many encounters)
     and commit the run to a real store; wall seconds of each."""
     import datetime as dt
@@ -103,7 +103,7 @@ def with_risk_and_store(res, folder: str, workers: int = 2) -> dict:
     encs = res.encounters
     if workers > 1 and wants_workers(encs):
         radii = {oid: DEFAULT_OBJECT_RADIUS_M for e in encs for oid in (e.primary, e.secondary)}
-        risk_in_workers(encs, [], {}, None, radii, Thresholds(), workers)
+        risk_in_workers(encs, [], {}, None, radii, Thresholds(), workers, executor)
     else:
         attach_risk(encs, CovarianceSources(oems=[], configured={}, history=None))
     risk_s = time.perf_counter() - t0
@@ -138,6 +138,10 @@ def main(argv=None) -> None:
     ap.add_argument("--skip-fleet", action="store_true")
     ap.add_argument("--skip-all-vs-all", action="store_true")
     ap.add_argument("--skip-trade", action="store_true")
+    ap.add_argument("--dask", action="store_true", help="run the screenings' tasks on a Dask "
+                    "LocalCluster on loopback (one single-threaded worker process per --workers, "
+                    "--worker-memory each)")
+    ap.add_argument("--worker-memory", default="4GiB")
     args = ap.parse_args(argv)
     import tempfile
 
@@ -151,20 +155,36 @@ def main(argv=None) -> None:
     n_shell = sum(1 for r in cat if r.catalog_id.startswith("S"))
     print(f"catalog: {len(cat)} objects, {n_shell} of them in {len(synth.DENSE_SHELLS) if n_shell else 0} "
           f"thin shells")
-    if not args.skip_trade:
-        run_trade(args, prims[0], cat, jd0, fr0, vol)
-    if not args.skip_fleet:
-        run_fleet(args, prims, eng, cat, jd0, fr0, vol, tmp)
-    if not args.skip_all_vs_all:
-        run_all_vs_all(args, sizes, prims, eng, cat, jd0, fr0, vol, tmp)
+    args.executor, cluster = None, None
+    if args.dask:
+        from dask.distributed import Client, LocalCluster
+
+        cluster = LocalCluster(n_workers=args.workers, threads_per_worker=1, processes=True,
+                               memory_limit=args.worker_memory, host="127.0.0.1",
+                               dashboard_address=None)
+        client = Client(cluster)
+        args.executor = client.get_executor()
+        print(f"Dask LocalCluster: {args.workers} worker processes, {args.worker_memory} each")
+    try:
+        if not args.skip_trade:
+            run_trade(args, prims[0], cat, jd0, fr0, vol)
+        if not args.skip_fleet:
+            run_fleet(args, prims, eng, cat, jd0, fr0, vol, tmp)
+        if not args.skip_all_vs_all:
+            run_all_vs_all(args, sizes, prims, eng, cat, jd0, fr0, vol, tmp)
+    finally:
+        if cluster is not None:
+            client.close()
+            cluster.close()
 
 
 def run_fleet(args, prims, eng, cat, jd0, fr0, vol, tmp) -> None:
     print(f"== fleet: {len(prims)} primaries vs {len(cat)} objects, {args.fleet_days:g} days, 5 km")
     t0 = time.perf_counter()
     res = screen(ScreeningRequest(catalog=cat, primaries=prims, jd0=jd0, fr0=fr0,
-                                  duration_s=args.fleet_days * 86400, volume=vol, workers=args.workers))
-    extra = with_risk_and_store(res, tmp, args.workers)
+                                  duration_s=args.fleet_days * 86400, volume=vol, workers=args.workers),
+                 executor=args.executor)
+    extra = with_risk_and_store(res, tmp, args.workers, args.executor)
     wall = time.perf_counter() - t0
     cp1 = catalog_pass_s(cat, jd0, fr0, 1.0)
     cp = cp1 * args.fleet_days  # propagation cost is linear in samples: 1 day measured, scaled
@@ -217,7 +237,7 @@ def run_trade(args, prim, cat, jd0, fr0, vol, days: float = 3.0) -> None:
     res = screen(ScreeningRequest(catalog=[r for r in cat if r.catalog_id != prim.catalog_id],
                                   primary_oems=[oem], jd0=jd0, fr0=fr0 + ch.burn_s / 86400.0,
                                   duration_s=ev.window_s - ch.burn_s, volume=vol,
-                                  workers=args.workers))
+                                  workers=args.workers), executor=args.executor)
     attach_risk(res.encounters, CovarianceSources())
     rescreen_s = time.perf_counter() - t0
     wall = time.perf_counter() - t_all
@@ -236,14 +256,15 @@ def run_all_vs_all(args, sizes, prims, eng, cat, jd0, fr0, vol, tmp) -> None:
         print(f"== all-vs-all: {n} objects, 1 day, 5 km")
         t0 = time.perf_counter()
         res = screen(ScreeningRequest(catalog=sub, jd0=jd0, fr0=fr0, duration_s=86400.0,
-                                      volume=vol, workers=args.workers))
-        extra = with_risk_and_store(res, tmp, args.workers)
+                                      volume=vol, workers=args.workers), executor=args.executor)
+        extra = with_risk_and_store(res, tmp, args.workers, args.executor)
         wall = time.perf_counter() - t0
         cpn = catalog_pass_s(sub, jd0, fr0, 1.0)
         print(f"wall {wall:.1f} s  peak RSS {peak_rss_mb():.0f} MB  encounters {len(res.encounters)}  "
               f"engineered found {found(res, eng_in)}/{len(eng_in)}  candidates {res.stats['candidates']}")
         print_stages(res, extra, wall)
-        print(f"catalog pass {cpn:.1f} s;  ratio {wall / cpn:.2f} x  (target <= 1.0)")
+        print(f"catalog pass {cpn:.1f} s;  ratio {wall / cpn:.2f} x  (target <= 1.0);  "
+              f"{res.stats['tasks']} tasks, per-task peak RSS {res.stats.get('task_peak_rss_mb', 0):.0f} MB")
 
 
 if __name__ == "__main__":

@@ -32,3 +32,18 @@ def spawn_pool(max_workers: int):
 
     return ProcessPoolExecutor(max_workers=max_workers, mp_context=mp.get_context("spawn"),
                                initializer=worker_initializer, initargs=(os.getpid(),))
+
+
+def result_of(fut, what: str):
+    """A future's result; a worker that died under it (killed, out of memory, a cluster node
+    the scheduler gave up on) is a clear ScreenerError naming `what`, never a traceback, and
+    the caller stores nothing of the run."""
+    from .errors import ScreenerError
+
+    try:
+        return fut.result()
+    except ScreenerError:
+        raise
+    except Exception as exc:  # noqa: BLE001 - any executor's failure type, named in the message
+        raise ScreenerError(f"{what} failed on its worker ({type(exc).__name__}: "
+                            f"{str(exc)[:200]}); nothing of this run was stored") from None

@@ -274,6 +274,11 @@ async def test_the_tui_trade_screen_at_80x24(first):
         result = str(screen.query_one("#trade-result").render())
         assert "re-screen:" in result and "kept as trade" in result
         assert "Advisory only" in str(screen.query_one(".caution").render())
+        await pilot.press("escape")
+        await pilot.pause()
+        assert isinstance(app.screen, EventScreen)
+        facts = str(app.screen.query_one("#event-facts").render())
+        assert f"manoeuvre trades: {before + 1}" in facts and "created" in facts
     with Store(store) as s:
         rows = trades_for_event(s, event)
     assert len(rows) == before + 1 and os.path.exists(rows[-1]["oem_path"])

@@ -194,3 +194,25 @@ def test_importance_sampling_on_the_curved_path():
     tol = 3.29 * math.sqrt(se ** 2 + plain.pc * (1 - plain.pc) / plain.samples)
     assert abs(est.pc - plain.pc) <= tol, (est, plain)
 
+
+
+@pytest.mark.parametrize("hbr_m", [5.0, 12.0, 40.0])
+def test_the_indexed_hit_test_gives_the_exact_hits(hbr_m):
+    """The point index of the path (points every hbr/2) only sorts offsets into sure hits,
+    sure misses and a thin shell tested exactly; the hits are those of the exact
+    point-to-segment test on every offset (elementary geometry: every point of a segment is
+    within half the spacing of an indexed point)."""
+    from screener.risk.pc_path import _Path
+
+    # a slow co-orbital drift (4 m/s in-track over +-30 min, a slight weave), large in-track
+    # uncertainty: every segment of it can be hit
+    t = np.arange(-1800.0, 1800.1, 60.0)
+    path = np.stack([0.02 + 0.0 * t, 0.004 * t, 0.003 * np.sin(t / 500.0)], axis=-1)
+    cov = np.diag([0.02, 2.0, 0.03]) ** 2
+    p = _Path.near(path, cov, hbr_m / 1000.0)
+    assert p.tree is not None
+    rng = np.random.default_rng(int(hbr_m))
+    d = rng.standard_normal((40_000, 3)) @ np.linalg.cholesky(cov).T
+    got, exact = p.hits(d, hbr_m / 1000.0), p._exact(d, hbr_m / 1000.0)
+    assert exact.sum() > 20
+    assert np.array_equal(got, exact)

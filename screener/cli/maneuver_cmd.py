@@ -91,7 +91,7 @@ def cmd_maneuver(args) -> int:
     from ..timeutil import parse_iso
     from .load import warn
     from .progress import make_progress
-    from .run_cmd import open_store, open_store_for_writing
+    from .run_cmd import open_store
 
     _check(args)
     window_h = _window_h(args.burn_window_h)
@@ -108,7 +108,15 @@ def cmd_maneuver(args) -> int:
         ctx = mr.event_from_cdm(args.cdm, hbr, lead_s, model)
         thresholds = Thresholds()
     else:
-        store = open_store(args.store, create=False) if args.no_save else open_store_for_writing(args.store)
+        store = open_store(args.store, create=False)     # never a new, empty store
+        if not args.no_save:
+            from ..errors import StoreError
+
+            try:
+                store.check_writable()
+            except ScreenerError as exc:
+                store.close()
+                raise StoreError(str(exc)) from None
         ctx = mr.event_from_store(store, args.event)
         thresholds = ctx.cfg.thresholds
         model = given or mr.model_of(ctx)

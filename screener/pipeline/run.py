@@ -121,6 +121,7 @@ def risk_in_workers(encs, oems, configured, history, radii, thresholds, workers:
     from concurrent.futures import as_completed
 
     from ..risk.attach import risk_of_chunk
+    from ..workers import result_of
 
     n_chunks = workers * RISK_CHUNKS_PER_WORKER
     size = max(1, -(-len(encs) // n_chunks))
@@ -140,7 +141,7 @@ def risk_in_workers(encs, oems, configured, history, radii, thresholds, workers:
         done = 0
         for fut in as_completed(futures):
             chunk = futures[fut]
-            for e, risk in zip(chunk, fut.result()):
+            for e, risk in zip(chunk, result_of(fut, "a risk chunk")):
                 e.risk = risk
             done += len(chunk)
             if progress:

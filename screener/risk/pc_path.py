@@ -24,14 +24,22 @@ BOUND_FLOOR = 1e-30             # pc_path_upper_bound never goes below this (tai
 REACH_SIGMA = 6.0               # segments farther than this many sigma (+ HBR) cannot be hit
 
 
+TREE_MAX_POINTS = 200_000       # the hit test's point index is skipped for longer paths ...
+TREE_MIN_SEGMENTS = 16          # ... and for fewer segments than this (measured break-even:
+                                # a query costs about what the exact test on 16 segments does)
+
+
 @dataclasses.dataclass(frozen=True)
 class _Path:
-    """The path segments that can be hit, with the products the hit test reuses."""
+    """The path segments that can be hit, with the products the hit test reuses, and an index
+    of points along them every hbr/2 (see hits)."""
     a: np.ndarray        # (s, 3) segment starts, km
     seg: np.ndarray      # (s, 3) segment vectors
     seg2: np.ndarray     # (s,) squared lengths
     a_seg: np.ndarray    # (s,) a . seg
     a2: np.ndarray       # (s,) |a|^2
+    tree: object = None  # cKDTree of points along the segments, spacing at most `spacing_km`
+    spacing_km: float = 0.0
 
     @classmethod
     def near(cls, path_km, cov_km2, hbr_km) -> "_Path":
@@ -43,12 +51,37 @@ class _Path:
         u0 = np.clip(np.einsum("sk,sk->s", -a, seg) / seg2, 0.0, 1.0)
         keep = np.linalg.norm(a + u0[:, None] * seg, axis=1) <= reach
         a, seg, seg2 = a[keep], seg[keep], seg2[keep]
-        return cls(a, seg, seg2, np.einsum("sk,sk->s", a, seg), np.einsum("sk,sk->s", a, a))
+        tree, spacing = None, 0.5 * hbr_km
+        n_pts = np.ceil(np.sqrt(seg2) / spacing).astype(int) + 1
+        if len(a) >= TREE_MIN_SEGMENTS and spacing > 0 and n_pts.sum() <= TREE_MAX_POINTS:
+            from scipy.spatial import cKDTree
+
+            pts = np.concatenate([a[k] + np.linspace(0.0, 1.0, n)[:, None] * seg[k]
+                                  for k, n in enumerate(n_pts)])
+            tree = cKDTree(pts)
+        return cls(a, seg, seg2, np.einsum("sk,sk->s", a, seg), np.einsum("sk,sk->s", a, a),
+                   tree, spacing)
 
     def hits(self, delta: np.ndarray, hbr_km: float) -> np.ndarray:
-        """Which offsets (n, 3) bring the shifted path within hbr of the origin."""
+        """Which offsets (n, 3) bring the shifted path within hbr of the origin, i.e. which
+        points -delta lie within hbr of the path.  With the point index, the distance d to
+        the nearest indexed point bounds the distance to the path from both sides (the path
+        is within spacing/2 of an indexed point everywhere): d <= hbr is a hit, d > hbr +
+        spacing/2 a miss, and only the thin shell between gets the exact segment test.  The
+        same hits as the exact test alone, at a fraction of its cost."""
         if not len(self.a):
             return np.zeros(len(delta), bool)
+        if self.tree is None or self.spacing_km != 0.5 * hbr_km:
+            return self._exact(delta, hbr_km)
+        d, _ = self.tree.query(-delta, distance_upper_bound=hbr_km + 0.5 * self.spacing_km)
+        out = d <= hbr_km
+        maybe = np.isfinite(d) & ~out
+        if maybe.any():
+            out[maybe] = self._exact(delta[maybe], hbr_km)
+        return out
+
+    def _exact(self, delta: np.ndarray, hbr_km: float) -> np.ndarray:
+        """Exact point-to-segment distances, every offset against every segment."""
         # q = -delta - a (the origin seen from the shifted segment start), all as (n, s) via
         # two matrix products: q.seg = -(delta.seg) - a.seg, |q|^2 = |delta|^2 + 2 delta.a + |a|^2
         d0, d1, d2_ = delta[:, 0:1], delta[:, 1:2], delta[:, 2:3]

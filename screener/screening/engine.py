@@ -22,6 +22,7 @@ from ..elements.record import ElementSet
 from ..errors import ScreenerError
 from ..propagation import codes
 from ..propagation.ephemeris import Population
+from ..workers import result_of
 from .encounter import (SLOW_RELATIVE_SPEED_KM_S, Encounter, add_range_profile, fill_altitudes,
                         make_encounter)
 from .filters import apogee_perigee_mask, bounds_array, radial_bounds_km
@@ -43,6 +44,13 @@ FLOAT32_PAD_KM = 0.01        # single-precision rounding in the fleet sieve, gen
 INTERP_MARGIN_KM = 2.0        # added to the volume's bounding radius in both coarse stages
 KD_SUBSTEPS = 2               # spatial-index samples per grid interval (all-vs-all)
 MAX_SECONDARIES_PER_TASK = 4000
+# Planned peak memory of one task, so that a task fits a 4 GB worker with room to spare: an
+# all-vs-all span holds every object's states, so large catalogs get more, shorter spans.
+# Measured per object and grid sample (r, v, codes, masks, SGP4's chunk output, the sieve's
+# interpolated positions): see DEVELOPERS.md.
+TASK_MEMORY_BUDGET_MB = 2000.0
+TASK_FIXED_MB = 300.0             # interpreter, libraries, Satrecs of the task's objects
+BYTES_PER_OBJECT_SAMPLE = 170.0   # measured 158 (30,000 objects, 91 and 181 samples)
 DEDUPE_TOL_S = 1e-3
 
 Progress = Callable[[str, int, int], None]
@@ -308,6 +316,13 @@ def _dedupe(encs: list[Encounter]) -> list[Encounter]:
     return out
 
 
+def spans_for_memory(n_objects: int, duration_s: float, step_s: float,
+                     budget_mb: float = TASK_MEMORY_BUDGET_MB) -> int:
+    """How many time spans keep one all-vs-all task (every object, one span) in budget_mb."""
+    per_span_samples = (budget_mb - TASK_FIXED_MB) * 1e6 / (BYTES_PER_OBJECT_SAMPLE * max(1, n_objects))
+    return max(1, math.ceil((duration_s / step_s + 1) / max(per_span_samples, 8.0)))
+
+
 def plan_tasks(req: ScreeningRequest, spans: int | None = None) -> list[Task]:
     """Cut a request into tasks.  Fleet mode first drops catalog objects that no primary can
     reach by the apogee/perigee filter."""
@@ -315,6 +330,8 @@ def plan_tasks(req: ScreeningRequest, spans: int | None = None) -> list[Task]:
         raise ScreenerError("the screening window must be longer than zero")
     spans = spans or max(1, 2 * req.workers)
     spans = min(spans, max(1, int(req.duration_s // (4 * req.step_s))))
+    if req.all_vs_all:
+        spans = max(spans, spans_for_memory(len(req.catalog), req.duration_s, req.step_s))
     edges = np.linspace(0.0, req.duration_s, spans + 1)
     reach = req.volume.bounding_radius_km + INTERP_MARGIN_KM
     if req.all_vs_all:
@@ -376,7 +393,7 @@ def screen(req: ScreeningRequest, progress: Progress | None = None, cancel=None,
                     for f in futures:
                         f.cancel()
                     raise Cancelled("screening cancelled")
-                results.append(fut.result())
+                results.append(result_of(fut, "a screening task"))
                 report("screening", n, len(tasks))
         finally:
             if own:

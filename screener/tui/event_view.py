@@ -62,7 +62,21 @@ def series_text(d: dict, members, now_unix_s: float) -> list[str]:
     return lines
 
 
-def facts_text(d: dict, now_unix_s: float, tca_unix_s: float, members=()) -> str:
+def trades_text(trades: list[dict]) -> list[str]:
+    """The manoeuvre trades kept with this event (newest last)."""
+    if not trades:
+        return ["manoeuvre trades: none yet (m sizes a burn)"]
+    out = [f"manoeuvre trades: {len(trades)}"]
+    for t in trades[-3:]:
+        burn = (f"{t['chosen_dv_m_s'] * 100:.2f} cm/s at {t['chosen_burn_utc'][5:16].replace('T', ' ')}Z"
+                if t["chosen_dv_m_s"] is not None else "no burn met the target")
+        made = (f", re-screen: {t['created_count']} created, {t['worsened_count']} worsened"
+                if t["created_count"] is not None else "")
+        out.append(f"  {t['created_utc'][:16].replace('T', ' ')}Z {t['target']}: {burn}{made}")
+    return out
+
+
+def facts_text(d: dict, now_unix_s: float, tca_unix_s: float, members=(), trades=()) -> str:
     pc = d.get("pc") or 0.0
     xm, ym, sx, sy, hbr = (d.get(k) for k in ("plane_xm_m", "plane_ym_m", "plane_sx_m", "plane_sy_m", "hbr_m"))
     quad = d.get("pc_quadrature", 0.0)          # computed once, by the risk layer
@@ -117,6 +131,7 @@ def facts_text(d: dict, now_unix_s: float, tca_unix_s: float, members=()) -> str
     if d.get("volume_entry"):
         lines.append(f"  in the screening volume {d['volume_entry']} to {d['volume_exit']}")
     lines.append(f"trend {d.get('trend', '?')}, change since the previous run: {d.get('change', '?')}")
+    lines += trades_text(list(trades))
     return "\n".join(lines)
 
 
@@ -166,10 +181,22 @@ class EventScreen(Screen):
             f"{d['primary_name'] or d['primary']} x {d['secondary_name'] or d['secondary']} | "
             f"{d.get('attention', '?')} | Pc {fmt_pc(d.get('pc') or 0.0)} | miss {d['miss_km'] * 1e3:.0f} m"
             f" | {d['tca'][5:16].replace('T', ' ')}Z | event {d['event_id']}, run {d['run_id']}")
-        self.query_one("#event-facts", Static).update(
-            facts_text(d, self.app.now_unix_s(), self.tca_unix_s, self.members))
+        self._facts()
         self._layout()
         self.query_one("#event-body").focus()
+
+    def _facts(self) -> None:
+        from ..store.trades import trades_for_event
+
+        store = self.app.open_store()
+        d = self.detail
+        self.query_one("#event-facts", Static).update(
+            facts_text(d, self.app.now_unix_s(), self.tca_unix_s, self.members,
+                       trades_for_event(store, d["event_id"]) if store else ()))
+
+    def on_screen_resume(self) -> None:
+        if self.detail:          # back from the trade screen: show the trade just kept
+            self._facts()
 
     def on_resize(self) -> None:
         self.app.check_size()
