@@ -44,12 +44,14 @@ FLOAT32_PAD_KM = 0.01        # single-precision rounding in the fleet sieve, gen
 INTERP_MARGIN_KM = 2.0        # added to the volume's bounding radius in both coarse stages
 KD_SUBSTEPS = 2               # spatial-index samples per grid interval (all-vs-all)
 MAX_SECONDARIES_PER_TASK = 4000
-# Planned peak memory of one task, so that a task fits a 4 GB worker with room to spare: an
-# all-vs-all span holds every object's states, so large catalogs get more, shorter spans.
-# Measured per object and grid sample (r, v, codes, masks, SGP4's chunk output, the sieve's
-# interpolated positions): see DEVELOPERS.md.
-TASK_MEMORY_BUDGET_MB = 2000.0
-TASK_FIXED_MB = 300.0             # interpreter, libraries, Satrecs of the task's objects
+# Planned peak memory of one task, so that a task fits a 4 GB worker: an all-vs-all span holds
+# every object's states, so large catalogs get more, shorter spans.  Measured (DEVELOPERS.md):
+# 158 bytes per object and grid sample (r, v, codes, masks, SGP4's chunk output, the sieve's
+# interpolated positions), and about 12 kB per object whatever the span (its element set and
+# Satrec, the task's pickled input, a Dask worker's copies).
+TASK_MEMORY_BUDGET_MB = 3000.0
+TASK_FIXED_MB = 300.0             # interpreter and libraries
+BYTES_PER_OBJECT = 12_000.0
 BYTES_PER_OBJECT_SAMPLE = 170.0   # measured 158 (30,000 objects, 91 and 181 samples)
 DEDUPE_TOL_S = 1e-3
 
@@ -319,7 +321,9 @@ def _dedupe(encs: list[Encounter]) -> list[Encounter]:
 def spans_for_memory(n_objects: int, duration_s: float, step_s: float,
                      budget_mb: float = TASK_MEMORY_BUDGET_MB) -> int:
     """How many time spans keep one all-vs-all task (every object, one span) in budget_mb."""
-    per_span_samples = (budget_mb - TASK_FIXED_MB) * 1e6 / (BYTES_PER_OBJECT_SAMPLE * max(1, n_objects))
+    n = max(1, n_objects)
+    free_mb = budget_mb - TASK_FIXED_MB - BYTES_PER_OBJECT * n / 1e6
+    per_span_samples = free_mb * 1e6 / (BYTES_PER_OBJECT_SAMPLE * n)
     return max(1, math.ceil((duration_s / step_s + 1) / max(per_span_samples, 8.0)))
 
 
