@@ -185,7 +185,7 @@ def print_trade(out: dict, stream) -> None:
           f"TCA {ev['tca'][:23]}Z", file=stream)
     base = out.get("baseline") or {}
     print(f"  now: miss {ev['miss_km'] * 1000:.0f} m"
-          + (f", Pc {fmt_pc(pc)} (as screened)" if pc == pc else "")
+          + (f", Pc {fmt_pc(pc)} (as screened)" if pc is not None else "")
           + (f"; the trade's model: Pc {fmt_pc(base['new_pc'])}" if base else "")
           + f"; target: {out['target']['text']}", file=stream)
     for n in out["notes"]:

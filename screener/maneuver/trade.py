@@ -101,7 +101,8 @@ class TradeEvent:
     def summary_json(self) -> dict:
         return {"primary": self.primary_id, "primary_name": self.primary_name,
                 "secondary": self.secondary_id, "secondary_name": self.secondary_name,
-                "tca": self.iso(self.tca_s, 6), "miss_km": self.miss_km, "pc": self.pc,
+                "tca": self.iso(self.tca_s, 6), "miss_km": self.miss_km,
+                "pc": self.pc if math.isfinite(self.pc) else None,
                 "relative_speed_km_s": self.relative_speed_km_s, "event_id": self.event_id,
                 "run_id": self.run_id, "encounter_id": self.encounter_id, "source": self.source,
                 "hbr_m": self.covariances.hbr_m,

@@ -222,9 +222,7 @@ def rescreen(ctx: Context, oem, burn_s: float, workers: int, warn: Warn,
     after = []
     for e in result.encounters:
         j = e.to_json()
-        j["tca_unix_s"] = unix_s(*e.tca_jd)
-        for k in ("range_profile_km", "primary_cov_rtn_km2", "secondary_cov_rtn_km2"):
-            j.pop(k, None)
+        j["tca_unix_s"] = unix_s(*e.tca_jd)      # the fields of `screener screen --json`, and this
         after.append(j)
     target_tca = unix_s(ev.jd0, ev.fr0 + ev.tca_s / 86400.0)
     out = compare(ctx.before, after, ev.secondary_id, target_tca, ctx.tca_tol_s)

@@ -156,14 +156,19 @@ def pc_path_importance(path_km: np.ndarray, cov_km2: np.ndarray, hbr_km: float,
         x += ((s_along[k] - s_across) * np.einsum("ni,ni->n", z, axis[k]))[:, None] * axis[k]
         prior = rng.random(n) < IS_DEFENSIVE
         x[prior] = rng.standard_normal((int(prior.sum()), 3)) @ L.T
-        dx = x[:, None, :] - centres[None, :, :]                      # (n, K, 3)
-        u = np.einsum("nki,ki->nk", dx, axis)
-        perp2 = np.einsum("nki,nki->nk", dx, dx) - u * u
-        log_mix = special.logsumexp(log_comp_norm[None, :] - 0.5 * (u / s_along[None, :]) ** 2
-                                    - 0.5 * perp2 / s_across ** 2, axis=1)
-        lp = log_p(x)
-        log_q = np.logaddexp(np.log(IS_DEFENSIVE) + lp, np.log1p(-IS_DEFENSIVE) + log_mix)
-        w = np.where(path.hits(x, hbr_km), np.exp(lp - log_q), 0.0)
+        # a miss weighs 0 whatever its density: the mixture (n x K) is evaluated for hits only
+        hit = path.hits(x, hbr_km)
+        w = np.zeros(n)
+        if hit.any():
+            xh = x[hit]
+            dx = xh[:, None, :] - centres[None, :, :]                 # (hits, K, 3)
+            u = np.einsum("nki,ki->nk", dx, axis)
+            perp2 = np.einsum("nki,nki->nk", dx, dx) - u * u
+            log_mix = special.logsumexp(log_comp_norm[None, :] - 0.5 * (u / s_along[None, :]) ** 2
+                                        - 0.5 * perp2 / s_across ** 2, axis=1)
+            lp = log_p(xh)
+            log_q = np.logaddexp(np.log(IS_DEFENSIVE) + lp, np.log1p(-IS_DEFENSIVE) + log_mix)
+            w[hit] = np.exp(lp - log_q)
         total += float(w.sum())
         total2 += float((w * w).sum())
         done += n
