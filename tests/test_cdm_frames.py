@@ -95,3 +95,16 @@ def test_method_keyword_names_the_method_used(method, keyword):
     assert rel.get("COLLISION_PROBABILITY_METHOD") == keyword
     assert float(rel["COLLISION_PROBABILITY"]) == pytest.approx(1.234e-5, rel=1e-4)
     assert any(method in c for c in comments)
+
+
+def test_frame_rotations_for_many_times_come_in_chunks_with_the_same_matrices(monkeypatch):
+    """Long time lists go through skyfield in chunks (its nutation arrays grow with the number
+    of times): the matrices equal skyfield's for the whole list in one call."""
+    from screener.propagation import frames
+
+    t_s = np.linspace(0.0, 3 * 86400.0, 5000)
+    chunked = frames.teme_to_itrs_matrices(2461376.5, 0.0, t_s)
+    monkeypatch.setattr(frames, "FRAME_CHUNK_TIMES", 10**9)
+    whole = frames.teme_to_itrs_matrices(2461376.5, 0.0, t_s)
+    assert chunked.shape == (5000, 3, 3)
+    assert np.max(np.abs(chunked - whole)) < 1e-15

@@ -28,22 +28,44 @@ def _stack(R: np.ndarray, m: int) -> np.ndarray:
     return np.moveaxis(R, -1, 0)
 
 
-def gcrf_to_teme_matrices(jd0: float, fr0: float, t_s: np.ndarray) -> np.ndarray:
+# Times per skyfield call: its nutation series holds arrays of (terms x times), about 340 MB
+# per array for 62,000 times (the altitudes of a 31,000-encounter run), so long time lists go
+# through in chunks (each time's rotation is computed on its own: the same matrices).
+FRAME_CHUNK_TIMES = 2048
+
+
+def _chunked(fn, jd0: float, fr0: float, t_s) -> np.ndarray:
+    t_s = np.atleast_1d(np.asarray(t_s, float))
+    if len(t_s) <= FRAME_CHUNK_TIMES:
+        return fn(jd0, fr0, t_s)
+    return np.concatenate([fn(jd0, fr0, t_s[a:a + FRAME_CHUNK_TIMES])
+                           for a in range(0, len(t_s), FRAME_CHUNK_TIMES)])
+
+
+def _gcrf_to_teme(jd0: float, fr0: float, t_s: np.ndarray) -> np.ndarray:
     from skyfield.sgp4lib import TEME
 
     t = skyfield_times(jd0, fr0, t_s)
-    return _stack(TEME.rotation_at(t), len(np.atleast_1d(t_s)))
+    return np.array(_stack(TEME.rotation_at(t), len(t_s)))
 
 
-def teme_to_itrs_matrices(jd0: float, fr0: float, t_s: np.ndarray) -> np.ndarray:
+def _teme_to_itrs(jd0: float, fr0: float, t_s: np.ndarray) -> np.ndarray:
     from skyfield.framelib import itrs
     from skyfield.sgp4lib import TEME
 
     t = skyfield_times(jd0, fr0, t_s)
-    m = len(np.atleast_1d(t_s))
+    m = len(t_s)
     R_teme = _stack(TEME.rotation_at(t), m)
     R_itrs = _stack(itrs.rotation_at(t), m)
     return np.einsum("mij,mkj->mik", R_itrs, R_teme)  # R_itrs @ R_teme.T
+
+
+def gcrf_to_teme_matrices(jd0: float, fr0: float, t_s: np.ndarray) -> np.ndarray:
+    return _chunked(_gcrf_to_teme, jd0, fr0, t_s)
+
+
+def teme_to_itrs_matrices(jd0: float, fr0: float, t_s: np.ndarray) -> np.ndarray:
+    return _chunked(_teme_to_itrs, jd0, fr0, t_s)
 
 
 def teme_to_itrs_km(r_teme_km: np.ndarray, jd0: float, fr0: float, t_s: np.ndarray) -> np.ndarray:
