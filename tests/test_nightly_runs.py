@@ -193,8 +193,8 @@ def test_newer_schema_is_refused(tmp_path):
 
 def test_a_schema_1_store_migrates_in_place(tmp_path):
     """A store written before element sets were kept as OMM keywords (and before encounters
-    kept their flags, and before manoeuvre trades were kept) opens and migrates through every
-    step."""
+    kept their flags, before manoeuvre trades and received CDMs were kept) opens and migrates
+    through every step."""
     import sqlite3
 
     from screener.store.db import MIGRATIONS
@@ -207,11 +207,12 @@ def test_a_schema_1_store_migrates_in_place(tmp_path):
     c.commit()
     c.close()
     with Store(str(path)) as s:
-        assert s.version() == SCHEMA_VERSION == 4
+        assert s.version() == SCHEMA_VERSION == 5
         row = s.conn.execute("SELECT line1, omm_json FROM elsets").fetchone()
         assert row["line1"] == "l1" and row["omm_json"] is None
         assert "flags" in {r["name"] for r in s.conn.execute("PRAGMA table_info(encounters)")}
         assert s.conn.execute("SELECT count(*) FROM trades").fetchone()[0] == 0
+        assert s.conn.execute("SELECT count(*) FROM received").fetchone()[0] == 0
 
 
 def test_a_catalog_that_shrinks_is_said_even_under_quiet(tmp_path):

@@ -144,10 +144,12 @@ def make_parser() -> argparse.ArgumentParser:
     from .run_cmd import add_run_parsers
 
     from .maneuver_cmd import add_maneuver_parser
+    from .receive_cmd import add_receive_parser
 
     add_run_parsers(sub)
     add_risk_parser(sub)
     add_maneuver_parser(sub)
+    add_receive_parser(sub)
     return ap
 
 

@@ -79,6 +79,7 @@ class Config:
     event_tca_tolerance_s: float = 600.0
     outputs: OutputsConfig = dataclasses.field(default_factory=OutputsConfig)
     store: str | None = None
+    received_folder: str | None = None  # received CDMs taken in at the start of each run
     # where each per-object entry was written ("file:line"), keyed by (table, object id), so
     # an entry that matches no object can be reported at its line
     object_entries: dict[tuple[str, str], str] = dataclasses.field(default_factory=dict)
@@ -214,7 +215,8 @@ class _Reader:
         return SigmaGrowth(s, g)
 
 
-TOP = {"run", "fleet", "catalog", "volume", "covariance", "thresholds", "events", "outputs", "store"}
+TOP = {"run", "fleet", "catalog", "volume", "covariance", "thresholds", "events", "outputs", "store",
+       "received"}
 
 
 def load_config(path: str) -> Config:
@@ -245,6 +247,7 @@ def _build(data: dict, rd: _Reader, base: str, path: str | None) -> Config:
     ev = rd.table(data.get("events", {}), ("events",), {"tca_tolerance_s"})
     out = rd.table(data.get("outputs", {}), ("outputs",), {"folder", "json", "csv", "cdm", "cdm_per", "report"})
     st = rd.table(data.get("store", {}), ("store",), {"path"})
+    rc = rd.table(data.get("received", {}), ("received",), {"folder"})
 
     cfg = Config(
         path=path,
@@ -336,6 +339,8 @@ def _build(data: dict, rd: _Reader, base: str, path: str | None) -> Config:
         report=rd.string(out, ("outputs", "report"), "text", REPORT_CHOICES))
     sp = rd.string(st, ("store", "path"), None)
     cfg.store = os.path.normpath(os.path.join(base, os.path.expanduser(sp))) if sp else None
+    rf = rd.string(rc, ("received", "folder"), None)
+    cfg.received_folder = os.path.normpath(os.path.join(base, os.path.expanduser(rf))) if rf else None
     return cfg
 
 

@@ -60,6 +60,28 @@ def input_drops(store, cfg: Config, inputs: Inputs) -> list[str]:
     return out
 
 
+def take_in_received(cfg: Config, store, warn: Callable[[str], None],
+                     note: Callable[[str], None]) -> None:
+    """[received] folder: its CDMs into the store before the run (one log line per file; a
+    refused file is a warning, never a failed run)."""
+    from ..pipeline.receive import receive
+
+    fleet = set(cfg.members)
+
+    def hbr_m(a: str, b: str) -> float:       # the run's own radii, as for its encounters
+        return cfg.radius_m(a, a in fleet) + cfg.radius_m(b, b in fleet)
+
+    if not os.path.isdir(cfg.received_folder):
+        warn(f"[received] folder {cfg.received_folder}: no such folder; no CDMs taken in")
+        return
+    lines: list[str] = []
+    got = receive(store, [cfg.received_folder], hbr_m, lines.append,
+                  tol_s=cfg.event_tca_tolerance_s)
+    for line in lines:
+        (warn if line.startswith("refused:") else note)(line)
+    note(f"received CDMs: {got.taken} taken in, {got.known} already in, {got.refused} refused")
+
+
 def resolve_start(cfg: Config, now: dt.datetime) -> dt.datetime:
     if cfg.start == "today":
         return now.astimezone(dt.timezone.utc).replace(hour=0, minute=0, second=0, microsecond=0)
@@ -188,6 +210,8 @@ def execute(cfg: Config, store=None, progress: Progress | None = None, cancel=No
 
     try:
         note(f"screener {__version__}; configuration {cfg.path or '(command-line options)'}")
+        if store is not None and cfg.received_folder:
+            take_in_received(cfg, store, warned, note)
         start = resolve_start(cfg, now)
         jd0, fr0 = datetime_to_jd(start)
         note(f"window {iso_z(start, 3)} + {cfg.window_days:g} d")
@@ -250,6 +274,10 @@ def execute(cfg: Config, store=None, progress: Progress | None = None, cancel=No
                 raise StoreError("the run was computed but not stored: "
                                  + describe_sqlite_error(store.path, exc, store.lock_wait_s)) from None
             out.store_path = store.path
+            if cfg.received_folder:
+                from ..store.received import rematch
+
+                rematch(store, cfg.event_tca_tolerance_s)   # this run's events join messages
             stages["store_s"] = time.perf_counter() - t_store
             report("storing", 1, 1)
             note(f"committed run {out.run_id} to {store.path}: {out.diff.counts()}")

@@ -60,11 +60,27 @@ class Cdm:
         return self.objects[1].fields["OBJECT_DESIGNATOR"]
 
 
-def read_cdm(path: str, text: str | None = None) -> Cdm:
-    text = read_text(path, "CDM") if text is None else clean_text(text)
+def _unit_of(key: str) -> str | None:
+    """The unit CCSDS 508.0-B-1 gives a keyword's value (None: unitless or not checked)."""
+    if key in ("X", "Y", "Z"):
+        return "km"
+    if key in ("X_DOT", "Y_DOT", "Z_DOT"):
+        return "km/s"
+    if key == "MISS_DISTANCE" or key.startswith("RELATIVE_POSITION_"):
+        return "m"
+    if key == "RELATIVE_SPEED" or key.startswith("RELATIVE_VELOCITY_"):
+        return "m/s"
+    if key in COVARIANCE:
+        a, b = key[1:].split("_")
+        dots = ("DOT" in a) + ("DOT" in b)
+        return ("m**2", "m**2/s", "m**2/s**2")[dots]
+    return None
+
+
+def _parse_kvn(text: str, path: str):
     header, relative, objects = {}, {}, []
     current = None
-    lineno_of = {}
+    lineno_of, units = {}, {}
     for lineno, raw in enumerate(text.splitlines(), start=1):
         s = raw.strip()
         if not s or s.startswith("COMMENT"):
@@ -82,6 +98,27 @@ def read_cdm(path: str, text: str | None = None) -> Cdm:
                              f"{lineno_of[(len(objects), key)]})", path, lineno, 1)
         target[key] = value
         lineno_of[(len(objects), key)] = lineno
+        if m.group(3):
+            units[(len(objects), key)] = m.group(3)[1:-1].strip()
+    return header, relative, objects, lineno_of, units
+
+
+def read_cdm(path: str, text: str | None = None) -> Cdm:
+    """A CDM in KVN or in XML (CCSDS 508.0-B-1; XML through defusedxml), every obligatory
+    keyword, unit, number and covariance checked: a ParseError names file, line and keyword."""
+    text = read_text(path, "CDM") if text is None else clean_text(text)
+    if text.lstrip().startswith("<"):
+        from .cdm_xml import parse_xml
+
+        header, relative, objects, lineno_of, units = parse_xml(text, path)
+    else:
+        header, relative, objects, lineno_of, units = _parse_kvn(text, path)
+    for (k, key), unit in units.items():
+        want = _unit_of(key)
+        if want is not None and unit.lower() != want.lower():
+            where = f"OBJECT{k}: " if k else ""
+            raise ParseError(f"{where}{key} is given in [{unit}], the standard's unit is [{want}]",
+                             path, lineno_of.get((k, key)))
     for key in HEADER:
         if key not in header:
             raise ParseError(f"missing obligatory CDM keyword {key}", path, 1)
@@ -89,7 +126,9 @@ def read_cdm(path: str, text: str | None = None) -> Cdm:
         if key not in relative:
             raise ParseError(f"missing obligatory CDM keyword {key}", path, 1)
     if len(objects) != 2:
-        raise ParseError(f"a CDM has two OBJECT sections, found {len(objects)}", path, 1)
+        last = max(lineno_of.values(), default=1)
+        raise ParseError(f"a CDM has two OBJECT sections, found {len(objects)} by the file's end "
+                         f"(line {last}): truncated, or not a conjunction message", path, last)
     out = []
     for k, obj in enumerate(objects, start=1):
         for key in OBLIGATORY_PER_OBJECT:
@@ -127,6 +166,10 @@ def read_cdm(path: str, text: str | None = None) -> Cdm:
         if np.linalg.eigvalsh(c[:3, :3]).min() < -1e-6 * max(1.0, np.abs(c[:3, :3]).max()):
             raise ParseError(f"OBJECT{k}: position covariance is not positive semi-definite",
                              path, lineno_of[(k, "CR_R")])
+        bad = _not_psd(c)
+        if bad:
+            raise ParseError(f"OBJECT{k}: covariance (6x6, RTN) {bad}", path,
+                             lineno_of[(k, "CR_R")])
         out.append(CdmObject(obj, r, v, c))
     try:
         miss = float(relative["MISS_DISTANCE"])
@@ -143,6 +186,27 @@ def read_cdm(path: str, text: str | None = None) -> Cdm:
             raise ParseError(f"{key} is not a UTC date and time: {src[key][:40]!r}", path,
                              lineno_of[(0, key)]) from None
     return Cdm(path, header, relative, out)
+
+
+PSD_TOL = 1e-6      # smallest eigenvalue of the correlation matrix allowed below zero (rounding)
+
+
+def _not_psd(c: np.ndarray) -> str:
+    """Why a 6x6 covariance is not a covariance ('' when it is): a negative variance, or a
+    correlation matrix with an eigenvalue below -PSD_TOL (scale-free across m^2 and m^2/s^2;
+    axes with zero variance must have zero covariances)."""
+    d = np.diag(c)
+    if (d < 0).any():
+        return f"has a negative variance ({COV_AXES[int(np.argmin(d))]})"
+    live = d > 0
+    if np.abs(c[~live]).max(initial=0.0) > 0:
+        return "has covariances on an axis with zero variance"
+    s = 1.0 / np.sqrt(d[live])
+    corr = c[np.ix_(live, live)] * s[:, None] * s[None, :]
+    low = float(np.linalg.eigvalsh(corr).min()) if live.any() else 0.0
+    if low < -PSD_TOL:
+        return f"is not positive semi-definite (correlation eigenvalue {low:.2e})"
+    return ""
 
 
 def write_cdm(path: str, header: dict, relative: dict, objects: list[dict],

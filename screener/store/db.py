@@ -14,7 +14,7 @@ import urllib.parse
 from ..environment import env_float
 from ..errors import ScreenerError
 
-SCHEMA_VERSION = 4
+SCHEMA_VERSION = 5
 ENV_STORE = "SCREENER_STORE"
 ENV_LOCK_WAIT = "SCREENER_LOCK_WAIT_S"
 DEFAULT_LOCK_WAIT_S = 60.0      # how long a writer waits for another run's commit to finish
@@ -120,6 +120,38 @@ MIGRATIONS: list[str] = [
         trade_json TEXT NOT NULL
     );
     CREATE INDEX trades_event ON trades(event_id, id);
+    """,
+    # 4 -> 5: received CDMs (screener receive, [received] folder): each message once (by
+    # MESSAGE_ID), its Pc recomputed beside the sender's, joined to our event of the same pair
+    # and TCA where there is one; `thread` is the MESSAGE_ID of the first message (by creation
+    # date) of the received event it belongs to (same pair, TCA within the tolerance)
+    """
+    CREATE TABLE received (
+        id INTEGER PRIMARY KEY,
+        message_id TEXT NOT NULL UNIQUE,
+        originator TEXT NOT NULL,
+        creation_utc TEXT NOT NULL,
+        creation_unix_s REAL NOT NULL,
+        path TEXT NOT NULL,
+        sha256 TEXT NOT NULL,
+        object1_id TEXT NOT NULL,
+        object1_name TEXT NOT NULL,
+        object2_id TEXT NOT NULL,
+        object2_name TEXT NOT NULL,
+        tca_utc TEXT NOT NULL,
+        tca_unix_s REAL NOT NULL,
+        miss_km REAL NOT NULL,
+        pc_sender REAL,
+        pc REAL NOT NULL,
+        pc_max REAL NOT NULL,
+        dilution INTEGER NOT NULL,
+        hbr_m REAL NOT NULL,
+        event_id INTEGER REFERENCES events(id),
+        thread TEXT NOT NULL,
+        data_json TEXT NOT NULL
+    );
+    CREATE INDEX received_pair ON received(object1_id, object2_id, tca_unix_s);
+    CREATE INDEX received_event ON received(event_id);
     """,
 ]
 

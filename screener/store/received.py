@@ -1,0 +1,130 @@
+"""Received CDMs in the store: one row per message (MESSAGE_ID), joined to our own event of the
+same pair and TCA, and threaded with the other messages about the same received event."""
+
+from __future__ import annotations
+
+import dataclasses
+import json
+import sqlite3
+
+from ..errors import StoreError
+from .db import Store, describe_sqlite_error
+
+
+@dataclasses.dataclass(frozen=True)
+class Message:
+    """One received message, checked and assessed (pipeline/receive.py builds these)."""
+    message_id: str
+    originator: str
+    creation_utc: str
+    creation_unix_s: float
+    path: str
+    sha256: str
+    object1_id: str
+    object1_name: str
+    object2_id: str
+    object2_name: str
+    tca_utc: str
+    tca_unix_s: float
+    miss_km: float
+    pc_sender: float | None
+    pc: float
+    pc_max: float
+    dilution: bool
+    hbr_m: float
+    data: dict
+
+
+def pair_key(a: str, b: str) -> tuple[str, str]:
+    return (a, b) if a <= b else (b, a)
+
+
+def our_event(conn: sqlite3.Connection, a: str, b: str, tca_unix_s: float, tol_s: float) -> int | None:
+    """Our event of the pair (either order) whose last TCA is within tol_s of tca_unix_s."""
+    rows = conn.execute("SELECT id, last_tca_unix_s FROM events WHERE (primary_id = ? AND "
+                        "secondary_id = ?) OR (primary_id = ? AND secondary_id = ?)",
+                        (a, b, b, a)).fetchall()
+    near = [(abs(r["last_tca_unix_s"] - tca_unix_s), r["id"]) for r in rows
+            if abs(r["last_tca_unix_s"] - tca_unix_s) <= tol_s]
+    return min(near)[1] if near else None
+
+
+def _rethread(conn: sqlite3.Connection, a: str, b: str, tol_s: float) -> None:
+    """Recompute the threads of one pair: messages sorted by TCA, a new thread where the gap
+    exceeds tol_s; a thread is named by its first message by (creation, MESSAGE_ID), so the
+    result does not depend on the order files were taken in."""
+    lo, hi = pair_key(a, b)
+    rows = conn.execute("SELECT id, message_id, creation_unix_s, tca_unix_s FROM received WHERE "
+                        "(object1_id = ? AND object2_id = ?) OR (object1_id = ? AND object2_id = ?) "
+                        "ORDER BY tca_unix_s, message_id", (lo, hi, hi, lo)).fetchall()
+    groups: list[list] = []
+    for r in rows:
+        if groups and r["tca_unix_s"] - groups[-1][-1]["tca_unix_s"] <= tol_s:
+            groups[-1].append(r)
+        else:
+            groups.append([r])
+    for g in groups:
+        first = min(g, key=lambda r: (r["creation_unix_s"], r["message_id"]))["message_id"]
+        conn.executemany("UPDATE received SET thread = ? WHERE id = ?", [(first, r["id"]) for r in g])
+
+
+def take_in(store: Store, m: Message, tol_s: float) -> str:
+    """Store one message; returns 'new', or 'known' for a MESSAGE_ID already taken in with the
+    same content.  The same MESSAGE_ID with other content raises ValueError with the reason
+    (the caller refuses the file with it)."""
+    conn = store.conn
+    old = conn.execute("SELECT sha256, path FROM received WHERE message_id = ?",
+                       (m.message_id,)).fetchone()
+    if old is not None:
+        if old["sha256"] == m.sha256:
+            return "known"
+        raise ValueError(f"MESSAGE_ID {m.message_id} was taken in before from {old['path']} with "
+                         f"other content; a message id names one message")
+    try:
+        with conn:
+            event = our_event(conn, m.object1_id, m.object2_id, m.tca_unix_s, tol_s)
+            conn.execute(
+                "INSERT INTO received (message_id, originator, creation_utc, creation_unix_s, path,"
+                " sha256, object1_id, object1_name, object2_id, object2_name, tca_utc, tca_unix_s,"
+                " miss_km, pc_sender, pc, pc_max, dilution, hbr_m, event_id, thread, data_json)"
+                " VALUES (?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?)",
+                (m.message_id, m.originator, m.creation_utc, m.creation_unix_s, m.path, m.sha256,
+                 m.object1_id, m.object1_name, m.object2_id, m.object2_name, m.tca_utc,
+                 m.tca_unix_s, m.miss_km, m.pc_sender, m.pc, m.pc_max, int(m.dilution), m.hbr_m,
+                 event, m.message_id, json.dumps(m.data, default=float)))
+            _rethread(conn, m.object1_id, m.object2_id, tol_s)
+    except sqlite3.Error as exc:
+        raise StoreError("the message was read but not stored: "
+                         + describe_sqlite_error(store.path, exc, store.lock_wait_s)) from None
+    return "new"
+
+
+def rematch(store: Store, tol_s: float) -> int:
+    """Join received messages to our events again (after a run added events); returns how
+    many changed."""
+    conn = store.conn
+    changed = 0
+    with conn:
+        for r in conn.execute("SELECT id, object1_id, object2_id, tca_unix_s, event_id FROM received").fetchall():
+            ev = our_event(conn, r["object1_id"], r["object2_id"], r["tca_unix_s"], tol_s)
+            if ev != r["event_id"]:
+                conn.execute("UPDATE received SET event_id = ? WHERE id = ?", (ev, r["id"]))
+                changed += 1
+    return changed
+
+
+def received_for_event(store: Store, event_id: int) -> list[dict]:
+    """The received messages joined to our event, in creation order."""
+    return [dict(r) for r in store.conn.execute(
+        "SELECT message_id, originator, creation_utc, tca_utc, miss_km, pc_sender, pc, pc_max,"
+        " dilution, hbr_m, thread FROM received WHERE event_id = ? ORDER BY creation_unix_s,"
+        " message_id", (event_id,))]
+
+
+def content(store: Store) -> list[tuple]:
+    """Everything stored about received messages except row ids: two intakes of the same
+    files in any order give the same content."""
+    return sorted(tuple(r) for r in store.conn.execute(
+        "SELECT message_id, originator, creation_utc, path, sha256, object1_id, object2_id,"
+        " tca_utc, miss_km, pc_sender, pc, pc_max, dilution, hbr_m, event_id, thread, data_json"
+        " FROM received"))
