@@ -228,3 +228,41 @@ def test_a_run_takes_in_its_received_folder_and_joins_its_own_events(exported, t
                                 "e.event_id = r.event_id WHERE e.run_id = ?", (latest,)).fetchone()[0]
     assert len(rows) == len(files) and all(r["event_id"] is not None for r in rows)
     assert joined >= 1
+
+
+def test_exports_carry_received_messages_source_and_disagreements(exported, tmp_path):
+    """`screener export` JSON: every encounter has `source`; one with received messages has
+    `received` (message_id, originator, creation_date, tca, miss_km, pc_sender, pc, hbr_m) and
+    the comparison with the latest; a message whose object 2 sits 3 km off (newer creation
+    date) is flagged as disagreeing on the miss; a message no event of ours matches is listed
+    as a received-only event; the CSV carries the same."""
+    store, files = exported
+    text = open(files[0]).read()
+    x = float(re.findall(r"^X\s*=\s*(\S+)", text, re.M)[1])
+    parts = text.split("OBJECT                              = OBJECT2")
+    assert len(parts) == 2
+    parts[1] = re.sub(r"^(X\s*=\s*)\S+", lambda m: f"{m.group(1)}{x + 3.0:.9f}", parts[1], count=1, flags=re.M)
+    off = "OBJECT                              = OBJECT2".join(parts)
+    off = re.sub(r"^(MESSAGE_ID\s*=\s*)(\S+)", lambda m: m.group(1) + m.group(2) + "-2", off, flags=re.M)
+    off = re.sub(r"^(CREATION_DATE\s*=\s*)\S+", r"\g<1>2030-01-01T00:00:00.000", off, flags=re.M)
+    second = tmp_path / "second.cdm"
+    second.write_text(off)
+    alien = os.path.join(ALFANO, "AlfanoTestCase02.cdm")
+    assert _receive(store, files[0], str(second), alien).returncode == 0
+    out = tmp_path / "exp2"
+    p = screener("export", "--store", store, "--out", str(out), "--cdm", "none", "--report", "none")
+    assert p.returncode == 0, p.stderr
+    doc = json.loads((out / "encounters.json").read_text())
+    assert all(e["source"] in ("ours", "both") for e in doc["encounters"])
+    both = [e for e in doc["encounters"] if e["source"] == "both"]
+    assert len(both) == 1 and len(both[0]["received"]) == 2
+    for m in both[0]["received"]:
+        assert {"message_id", "originator", "creation_date", "tca", "miss_km", "pc_sender", "pc",
+                "hbr_m"} <= set(m)
+    assert [m["message_id"] for m in both[0]["received"]][-1].endswith("-2")
+    cmp_ = both[0]["received_comparison"]
+    assert cmp_["disagrees"] and "miss" in cmp_["disagreement"]
+    assert [r["source"] for r in doc["received_only"]] == ["received"]
+    assert doc["received_only"][0]["received"][0]["message_id"] == "A09_case_02"
+    csv_text = (out / "encounters.csv").read_text()
+    assert "received_disagreement" in csv_text.splitlines()[0] and "miss +" in csv_text

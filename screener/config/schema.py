@@ -80,6 +80,9 @@ class Config:
     outputs: OutputsConfig = dataclasses.field(default_factory=OutputsConfig)
     store: str | None = None
     received_folder: str | None = None  # received CDMs taken in at the start of each run
+    received_tca_diff_s: float = 10.0   # disagreement with a received CDM: TCA, miss, Pc factor
+    received_miss_diff_km: float = 1.0
+    received_pc_factor: float = 10.0
     # where each per-object entry was written ("file:line"), keyed by (table, object id), so
     # an entry that matches no object can be reported at its line
     object_entries: dict[tuple[str, str], str] = dataclasses.field(default_factory=dict)
@@ -247,7 +250,8 @@ def _build(data: dict, rd: _Reader, base: str, path: str | None) -> Config:
     ev = rd.table(data.get("events", {}), ("events",), {"tca_tolerance_s"})
     out = rd.table(data.get("outputs", {}), ("outputs",), {"folder", "json", "csv", "cdm", "cdm_per", "report"})
     st = rd.table(data.get("store", {}), ("store",), {"path"})
-    rc = rd.table(data.get("received", {}), ("received",), {"folder"})
+    rc = rd.table(data.get("received", {}), ("received",),
+                  {"folder", "tca_diff_s", "miss_diff_km", "pc_factor"})
 
     cfg = Config(
         path=path,
@@ -339,6 +343,9 @@ def _build(data: dict, rd: _Reader, base: str, path: str | None) -> Config:
         report=rd.string(out, ("outputs", "report"), "text", REPORT_CHOICES))
     sp = rd.string(st, ("store", "path"), None)
     cfg.store = os.path.normpath(os.path.join(base, os.path.expanduser(sp))) if sp else None
+    cfg.received_tca_diff_s = rd.num(rc, ("received", "tca_diff_s"), 10.0, positive=True)
+    cfg.received_miss_diff_km = rd.num(rc, ("received", "miss_diff_km"), 1.0, positive=True)
+    cfg.received_pc_factor = rd.num(rc, ("received", "pc_factor"), 10.0, lo=1.0)
     rf = rd.string(rc, ("received", "folder"), None)
     cfg.received_folder = os.path.normpath(os.path.join(base, os.path.expanduser(rf))) if rf else None
     return cfg

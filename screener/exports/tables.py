@@ -14,7 +14,17 @@ CSV_FIELDS = ("event_id", "attention", "pc", "log10_pc", "pc_max", "pc_method", 
               "primary_designator", "secondary", "secondary_name", "secondary_designator", "tca",
               "miss_km", "radial_km", "in_track_km", "cross_track_km", "relative_speed_km_s",
               "crossing_angle_deg", "primary_alt_km", "secondary_alt_km", "primary_elset_age_days",
-              "secondary_elset_age_days", "trend", "change")
+              "secondary_elset_age_days", "trend", "change", "source", "received_count",
+              "received_latest_pc", "received_latest_pc_sender", "received_disagreement")
+
+
+def _received_cells(e: dict) -> dict:
+    msgs = e.get("received") or []
+    cmp_ = e.get("received_comparison") or {}
+    return {"received_count": len(msgs),
+            "received_latest_pc": msgs[-1]["pc"] if msgs else None,
+            "received_latest_pc_sender": msgs[-1]["pc_sender"] if msgs else None,
+            "received_disagreement": cmp_.get("disagreement", "") if msgs else None}
 
 
 def _clean(x):
@@ -50,4 +60,5 @@ def write_csv(path: str, encounters: list[dict]) -> None:
         w = csv.writer(fh)
         w.writerow(CSV_FIELDS)
         for e in encounters:
-            w.writerow([csv_cell(e.get(k)) for k in CSV_FIELDS])
+            row = {**e, **_received_cells(e)}
+            w.writerow([csv_cell(row.get(k)) for k in CSV_FIELDS])

@@ -13,7 +13,9 @@ from ..risk.attention import LEVEL_RANK
 from ..risk.flags import encounter_flags, with_proximity
 from ..risk.series import (CUMULATIVE_RULE, SERIES_PC_RULE, STORED, cumulative_by_primary,
                            describe_series, group)
+from ..risk.agreement import AgreementRule, compare
 from ..store import queries
+from ..store.received import as_exported, received_by_event, received_only
 from .cdm_out import write_event_cdm
 from .report import render_report
 from .tables import write_csv, write_json
@@ -21,14 +23,40 @@ from .tables import write_csv, write_json
 CDM_LEVEL = {"none": -1, "act": LEVEL_RANK["act"], "watch": LEVEL_RANK["watch"], "all": 99}
 
 
-def run_encounters(store, run_id: int) -> list[dict]:
-    """A run's encounters as exported, ranked, each with its flags and its series."""
+def run_encounters(store, run_id: int, rule: AgreementRule = AgreementRule()) -> list[dict]:
+    """A run's encounters as exported, ranked, each with its flags and its series, and where
+    the event has received CDMs, those (`received`, creation order), `source` ("ours" or
+    "both") and the comparison with the latest message."""
     rows = store.conn.execute("SELECT id, data_json, flags FROM encounters WHERE run_id=? ORDER BY "
                               "pc DESC, miss_km", (run_id,)).fetchall()
     encs = [{**json.loads(r["data_json"]), "encounter_id": r["id"]} for r in rows]
+    got = received_by_event(store)
     for e, r in zip(encs, rows):
         e["flags"] = r["flags"] if r["flags"] is not None else stored_flags(e)
+        msgs = got.get(e.get("event_id"), [])
+        e["source"] = "both" if msgs else "ours"
+        if msgs:
+            e["received"] = [as_exported(m) for m in msgs]
+            e["received_comparison"] = compare(e, msgs[-1], rule)
     return encs
+
+
+def received_only_events(store) -> list[dict]:
+    """Events known only from received CDMs: one entry per thread, source "received"."""
+    out = []
+    for thread, msgs in received_only(store).items():
+        last = msgs[-1]
+        out.append({"source": "received", "thread": thread, "object1": last["object1_id"],
+                    "object1_name": last["object1_name"], "object2": last["object2_id"],
+                    "object2_name": last["object2_name"], "tca": last["tca_utc"],
+                    "miss_km": last["miss_km"], "pc": last["pc"], "pc_sender": last["pc_sender"],
+                    "received": [as_exported(m) for m in msgs]})
+    return out
+
+
+def agreement_rule(config: dict) -> AgreementRule:
+    got = {k: config.get(f"received_{k}") for k in ("tca_diff_s", "miss_diff_km", "pc_factor")}
+    return AgreementRule(**{k: float(v) for k, v in got.items() if v is not None})
 
 
 def stored_flags(e: dict) -> str:
@@ -108,10 +136,12 @@ def export_run(store, run_id: int | None, folder: str, json_out=True, csv_out=Tr
 
 
 def _write_all(store, info, folder, json_out, csv_out, cdm, report, diff_text, cdm_per) -> list[str]:
-    encs = run_encounters(store, info.id)
+    rule = agreement_rule(info.config)
+    encs = run_encounters(store, info.id, rule)
     series = run_series(encs)
     head = {"run": {k: v for k, v in dataclasses.asdict(info).items() if k not in ("config", "stats")},
             "series_rule": SERIES_PC_RULE, "cumulative_rule": CUMULATIVE_RULE,
+            "received_rule": rule.describe(), "received_only": received_only_events(store),
             "series": [describe_series(g, lambda e: e["tca"]) for g in series],
             "cumulative_pc_by_primary": cumulative_by_primary(series)}
     written = []

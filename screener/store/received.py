@@ -113,12 +113,42 @@ def rematch(store: Store, tol_s: float) -> int:
     return changed
 
 
+SUMMARY = ("message_id, originator, creation_utc, tca_utc, tca_unix_s, miss_km, pc_sender, pc,"
+           " pc_max, dilution, hbr_m, thread, event_id, object1_id, object1_name, object2_id,"
+           " object2_name, data_json")
+
+
 def received_for_event(store: Store, event_id: int) -> list[dict]:
     """The received messages joined to our event, in creation order."""
     return [dict(r) for r in store.conn.execute(
-        "SELECT message_id, originator, creation_utc, tca_utc, miss_km, pc_sender, pc, pc_max,"
-        " dilution, hbr_m, thread FROM received WHERE event_id = ? ORDER BY creation_unix_s,"
-        " message_id", (event_id,))]
+        f"SELECT {SUMMARY} FROM received WHERE event_id = ? ORDER BY creation_unix_s, message_id",
+        (event_id,))]
+
+
+def received_by_event(store: Store) -> dict[int, list[dict]]:
+    """{our event id: its received messages in creation order}."""
+    out: dict[int, list[dict]] = {}
+    for r in store.conn.execute(f"SELECT {SUMMARY} FROM received WHERE event_id IS NOT NULL "
+                                "ORDER BY creation_unix_s, message_id"):
+        out.setdefault(r["event_id"], []).append(dict(r))
+    return out
+
+
+def received_only(store: Store) -> dict[str, list[dict]]:
+    """{thread: its messages in creation order} for received events none of ours matches."""
+    out: dict[str, list[dict]] = {}
+    for r in store.conn.execute(f"SELECT {SUMMARY} FROM received WHERE event_id IS NULL "
+                                "ORDER BY creation_unix_s, message_id"):
+        out.setdefault(r["thread"], []).append(dict(r))
+    return out
+
+
+def as_exported(r: dict) -> dict:
+    """One received message as the exports carry it (the command-line contract's fields)."""
+    return {"message_id": r["message_id"], "originator": r["originator"],
+            "creation_date": r["creation_utc"], "tca": r["tca_utc"], "miss_km": r["miss_km"],
+            "pc_sender": r["pc_sender"], "pc": r["pc"], "hbr_m": r["hbr_m"],
+            "pc_max": r["pc_max"], "dilution_region": bool(r["dilution"])}
 
 
 def content(store: Store) -> list[tuple]:
