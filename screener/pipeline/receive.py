@@ -11,7 +11,7 @@ from typing import Callable
 
 from ..elements.ids import canonical_id
 from ..errors import ParseError, ScreenerError
-from ..risk.assess import assess_cdm
+from ..risk.assess import assess_many
 from ..risk.cdm import read_cdm
 from ..store.received import Message, take_in
 from ..textfile import open_regular
@@ -64,17 +64,35 @@ def _unix(text: str) -> float:
     return parse_iso(text).timestamp()
 
 
-def read_message(path: str, hbr_m) -> Message:
-    """One file as a checked, assessed message (ParseError naming file, line and keyword).
-    hbr_m: metres, or a function of the two objects' ids giving them."""
+def parse_file(path: str):
+    """One file read and checked (ParseError naming file, line and keyword)."""
     if not os.path.exists(path):
         raise ParseError("no such file", path)
-    cdm = read_cdm(path)
+    return read_cdm(path)
+
+
+def messages_of(parsed: list[tuple[str, object]], hbr_m) -> list[Message]:
+    """Checked CDMs as assessed messages, their Pc figures computed together (risk.assess_many:
+    the same rules as one at a time).  hbr_m: metres, or a function of the two objects' ids."""
+    staged = []
+    for path, cdm in parsed:
+        o1, o2 = cdm.objects
+        ids = canonical_id(o1.fields["OBJECT_DESIGNATOR"]), canonical_id(o2.fields["OBJECT_DESIGNATOR"])
+        hbr = hbr_m(*ids) if callable(hbr_m) else hbr_m
+        staged.append((path, cdm, ids, hbr, (o1.r_km, o1.v_km_s, o1.cov_rtn_m[:3, :3] * 1e-6,
+                                             o2.r_km, o2.v_km_s, o2.cov_rtn_m[:3, :3] * 1e-6,
+                                             hbr, "CDM covariance")))
+    risks = assess_many([x[4] for x in staged])
+    return [_message(path, cdm, ids, hbr, risk)
+            for (path, cdm, ids, hbr, _args), risk in zip(staged, risks)]
+
+
+def read_message(path: str, hbr_m) -> Message:
+    return messages_of([(path, parse_file(path))], hbr_m)[0]
+
+
+def _message(path, cdm, ids, hbr_m, risk) -> Message:
     o1, o2 = cdm.objects
-    if callable(hbr_m):
-        hbr_m = hbr_m(canonical_id(o1.fields["OBJECT_DESIGNATOR"]),
-                      canonical_id(o2.fields["OBJECT_DESIGNATOR"]))
-    risk = assess_cdm(cdm, hbr_m)
     sender = cdm.relative.get("COLLISION_PROBABILITY")
     try:
         pc_sender = float(sender) if sender not in (None, "") else None
@@ -93,9 +111,8 @@ def read_message(path: str, hbr_m) -> Message:
         message_id=cdm.header["MESSAGE_ID"], originator=cdm.header["ORIGINATOR"],
         creation_utc=iso_z(parse_iso(cdm.header["CREATION_DATE"]), 3),
         creation_unix_s=_unix(cdm.header["CREATION_DATE"]), path=os.path.abspath(path),
-        sha256=_sha256(path),
-        object1_id=canonical_id(o1.fields["OBJECT_DESIGNATOR"]), object1_name=o1.fields.get("OBJECT_NAME", ""),
-        object2_id=canonical_id(o2.fields["OBJECT_DESIGNATOR"]), object2_name=o2.fields.get("OBJECT_NAME", ""),
+        sha256=_sha256(path), object1_id=ids[0], object1_name=o1.fields.get("OBJECT_NAME", ""),
+        object2_id=ids[1], object2_name=o2.fields.get("OBJECT_NAME", ""),
         tca_utc=iso_z(parse_iso(cdm.tca_text), 6), tca_unix_s=_unix(cdm.tca_text),
         miss_km=risk["miss_km"], pc_sender=pc_sender, pc=risk["pc"], pc_max=risk["pc_max"],
         dilution=bool(risk["dilution_region"]), hbr_m=hbr_m, data=data)
@@ -114,18 +131,20 @@ def receive(store, paths: list[str], hbr_m, report: Report, strict: bool = False
     """Take files in; one report line per file.  strict: check every file first and store
     nothing if one is refused."""
     out = Intake()
-    read: list[tuple[str, Message | None, str]] = []
+    read: list[tuple[str, object, str]] = []
     for path, named in files_of(paths):
         if not named and not looks_like_cdm(path):
             report(f"skipped: {path}: not a CDM")
             out.skipped += 1
             continue
         try:
-            read.append((path, read_message(path, hbr_m), ""))
+            read.append((path, parse_file(path), ""))
         except ParseError as exc:
             read.append((path, None, str(exc)))
         except ScreenerError as exc:
             read.append((path, None, f"{path}: {exc}"))
+    good = iter(messages_of([(p, c) for p, c, _w in read if c is not None], hbr_m))
+    read = [(p, next(good) if c is not None else None, w) for p, c, w in read]
     bad = [why for _p, m, why in read if m is None]
     if strict and bad:
         for why in bad:

@@ -76,7 +76,30 @@ def trades_text(trades: list[dict]) -> list[str]:
     return out
 
 
-def facts_text(d: dict, now_unix_s: float, tca_unix_s: float, members=(), trades=()) -> str:
+def received_text(msgs: list[dict]) -> list[str]:
+    """The received CDMs joined to this event, oldest first: when each was made and how long
+    before TCA, the sender's Pc and ours from its states and covariances, miss and the
+    combined sigma in the encounter plane."""
+    import json
+
+    from ..timeutil import parse_iso
+
+    if not msgs:
+        return ["received CDMs: none for this event"]
+    out = [f"received CDMs: {len(msgs)} (Pc ours from the message's own states and covariances)"]
+    for m in msgs[-6:]:
+        lead_h = (parse_iso(m["tca_utc"]) - parse_iso(m["creation_utc"])).total_seconds() / 3600.0
+        data = json.loads(m["data_json"]) if m.get("data_json") else {}
+        sig = data.get("sigma_major_m")
+        theirs = fmt_pc(m["pc_sender"]) if m["pc_sender"] is not None else "-"
+        out.append(f"  {m['creation_utc'][5:16].replace('T', ' ')}Z  {lead_h:5.1f} h before TCA  "
+                   f"Pc theirs {theirs} ours {fmt_pc(m['pc'])}  miss {m['miss_km'] * 1e3:.0f} m"
+                   + (f"  sigma {sig:.0f} m" if sig is not None else "") + f"  {m['originator']}")
+    return out
+
+
+def facts_text(d: dict, now_unix_s: float, tca_unix_s: float, members=(), trades=(),
+               received=()) -> str:
     pc = d.get("pc") or 0.0
     xm, ym, sx, sy, hbr = (d.get(k) for k in ("plane_xm_m", "plane_ym_m", "plane_sx_m", "plane_sy_m", "hbr_m"))
     quad = d.get("pc_quadrature", 0.0)          # computed once, by the risk layer
@@ -131,6 +154,7 @@ def facts_text(d: dict, now_unix_s: float, tca_unix_s: float, members=(), trades
     if d.get("volume_entry"):
         lines.append(f"  in the screening volume {d['volume_entry']} to {d['volume_exit']}")
     lines.append(f"trend {d.get('trend', '?')}, change since the previous run: {d.get('change', '?')}")
+    lines += received_text(list(received))
     lines += trades_text(list(trades))
     return "\n".join(lines)
 
@@ -186,13 +210,15 @@ class EventScreen(Screen):
         self.query_one("#event-body").focus()
 
     def _facts(self) -> None:
+        from ..store.received import received_for_event
         from ..store.trades import trades_for_event
 
         store = self.app.open_store()
         d = self.detail
         self.query_one("#event-facts", Static).update(
             facts_text(d, self.app.now_unix_s(), self.tca_unix_s, self.members,
-                       trades_for_event(store, d["event_id"]) if store else ()))
+                       trades_for_event(store, d["event_id"]) if store else (),
+                       received_for_event(store, d["event_id"]) if store else ()))
 
     def on_screen_resume(self) -> None:
         if self.detail:          # back from the trade screen: show the trade just kept
