@@ -72,6 +72,12 @@ report = "text"              # none | text | html
 
 # [store]
 # path = "screener.sqlite"   # default: $SCREENER_STORE or $XDG_DATA_HOME/screener/store.sqlite
+
+# [received]
+# folder = "inbox"           # received CDMs (KVN or XML) taken in at the start of each run
+# tca_diff_s = 10.0          # disagreement with our own screening: TCA apart by more than this,
+# miss_diff_km = 1.0         # ... miss by more than this,
+# pc_factor = 10.0           # ... or Pc by more than this factor
 '''
 
 
