@@ -228,7 +228,7 @@ def _search(ev, lin, burn_s, direction, target, max_dv, model, curve) -> BurnOpt
 
     def lin_score(dv):
         a = approach_of(ev, LinearTrack(ev.primary, lin, unit * dv))
-        pc = pc_only(a, ev.covariances) if target.kind == "pc" or curve is not None else 0.0
+        pc = pc_only(a, ev.covariances)        # the plot's curve keeps it for every target
         return target.score(a, pc), a, pc
 
     grid = np.geomspace(MIN_DV_M_S, max_dv, GRID_POINTS)
