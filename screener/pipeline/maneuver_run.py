@@ -274,7 +274,15 @@ def burn_oem(ctx: Context, option: BurnOption, model: ForceModel) -> tuple[str, 
 def plan(ctx: Context, target: Target, window_h=None, extra_burns_s=(),
          directions=DEFAULT_DIRECTIONS, max_dv_m_s: float = DEFAULT_MAX_DV_M_S,
          model: ForceModel = DEFAULT_MODEL, progress: Progress | None = None) -> Trade:
-    times, notes = burn_times(ctx.event, window_h, list(extra_burns_s))
+    import datetime as dt
+
+    ev = ctx.event
+    times, notes = burn_times(ev, window_h, list(extra_burns_s))
     if not times:
         raise ScreenerError("no burn time left to try: " + "; ".join(notes))
+    now_s = (dt.datetime.now(dt.timezone.utc) - jd_to_datetime(ev.jd0, ev.fr0)).total_seconds()
+    past = [t for t in times if t < now_s]
+    if past:
+        notes.append(f"{len(past)} of the {len(times)} burn times are already past (now "
+                     f"{ev.iso(now_s, 0)}): kept in the table for the record, not to be flown")
     return run_trade(ctx.event, target, times, directions, max_dv_m_s, model, notes, progress)
