@@ -50,7 +50,8 @@ def add_screen_args(p: argparse.ArgumentParser, required: bool = True) -> None:
 # (option, attribute, lowest allowed, highest allowed): checked before anything runs
 RANGES = (("--days", "days", 1e-3, 60.0), ("--radius-km", "radius_km", 1e-3, 1000.0),
           ("--hbr-m", "hbr_m", 1e-3, 1000.0), ("--max-age-days", "max_age_days", 1e-3, 3650.0),
-          ("--workers", "workers", 1, 256))
+          ("--workers", "workers", 1, 256), ("--max-dv-m-s", "max_dv_m_s", 1e-3, 100.0),
+          ("--drag-cd-area-m2-kg", "drag_cd_area_m2_kg", 0.0, 1.0))
 ONE_OFF = ("days", "radius_km", "ric_km", "hbr_m", "max_age_days")
 
 

@@ -70,12 +70,7 @@ def _check(args) -> None:
         raise ScreenerError("give --cdm, or --store with --event, not both")
     if not args.cdm and (args.event is None):
         raise ScreenerError("give --store PATH --event ID, or --cdm FILE")
-    for flag, x, lo, hi in (("--max-dv-m-s", args.max_dv_m_s, 1e-3, 100.0),
-                            ("--drag-cd-area-m2-kg", args.drag_cd_area_m2_kg, 0.0, 1.0),
-                            ("--hbr-m", args.hbr_m, 1e-3, 1000.0),
-                            ("--workers", args.workers, 1, 256)):
-        if x is not None and not (lo <= x <= hi):
-            raise ScreenerError(f"{flag} {x:g} is outside {lo:g} .. {hi:g}")
+    # numeric ranges: cli.main.RANGES, checked before any command runs
     for flag, path in (("--json", args.json), ("--oem", args.oem)):
         if path and not os.path.isdir(os.path.dirname(os.path.abspath(path))):
             raise ScreenerError(f"{flag} {path}: no such folder")
@@ -178,6 +173,7 @@ def _write(path: str, text: str) -> None:
 
 def print_trade(out: dict, stream) -> None:
     from ..display import fmt_pc
+    from ..maneuver.compare import cleared_text
 
     ev = out["event"]
     pc = ev["pc"]
@@ -205,9 +201,7 @@ def print_trade(out: dict, stream) -> None:
               f"{ch['new_miss_km'] * 1000:.0f} m, Pc {fmt_pc(ch['new_pc'])}", file=stream)
     rs = out.get("rescreen")
     if rs and "skipped" not in rs:
-        cl = rs["cleared"]
-        fate = (f"miss {cl['miss_km'] * 1000:.0f} m, Pc {fmt_pc(cl['pc'])}" if cl["in_volume"]
-                else "outside the screening volume")
+        fate = cleared_text(rs["cleared"])
         print(f"re-screen against {rs['catalog_objects']:,} objects from the burn to the window's end "
               f"({rs['window_days']:.2f} d, {rs['volume']}): {len(rs['encounters'])} encounters; "
               f"the event: {fate}", file=stream)

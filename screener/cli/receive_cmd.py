@@ -15,14 +15,11 @@ def add_receive_parser(sub) -> None:
 
 
 def cmd_receive(args) -> int:
-    from ..errors import ScreenerError
     from ..pipeline.receive import receive
     from ..risk.attach import DEFAULT_OBJECT_RADIUS_M
     from .run_cmd import open_store_for_writing
 
-    hbr = 2 * DEFAULT_OBJECT_RADIUS_M if args.hbr_m is None else args.hbr_m
-    if not 0 < hbr <= 1000:
-        raise ScreenerError("--hbr-m must be above 0 and at most 1000")
+    hbr = 2 * DEFAULT_OBJECT_RADIUS_M if args.hbr_m is None else args.hbr_m   # range: cli.main
     store = open_store_for_writing(args.store)
     try:
         got = receive(store, args.paths, hbr, print, strict=args.strict)

@@ -44,6 +44,15 @@ def compare(before: list[Before], after: list[dict], target_other: str, target_t
     return {"created": created, "worsened": worsened, "cleared": cleared}
 
 
+def cleared_text(cleared: dict) -> str:
+    """What became of the target event in a re-screen, as the CLI and the TUI say it."""
+    from ..display import fmt_pc
+
+    if cleared["in_volume"]:
+        return f"miss {cleared['miss_km'] * 1000:.0f} m, Pc {fmt_pc(cleared['pc'])}"
+    return "outside the screening volume"
+
+
 def rule_text(tol_s: float) -> str:
     return (f"created: no encounter with that object within {tol_s:.0f} s of this TCA before the "
             f"burn; worsened: Pc above {WORSE_PC_FACTOR:g} x its old value (and above "

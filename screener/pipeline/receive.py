@@ -5,7 +5,6 @@ event of the same pair and TCA."""
 from __future__ import annotations
 
 import dataclasses
-import hashlib
 import os
 from typing import Callable
 
@@ -15,6 +14,7 @@ from ..risk.assess import assess_many
 from ..risk.cdm import read_cdm
 from ..store.received import Message, take_in
 from ..textfile import open_regular
+from .inputs import file_digest
 from ..timeutil import iso_z, parse_iso
 
 Report = Callable[[str], None]
@@ -51,13 +51,6 @@ def looks_like_cdm(path: str) -> bool:
         return True          # unreadable: let the reader say why
     return "CCSDS_CDM_VERS" in head or "<cdm" in head
 
-
-def _sha256(path: str) -> str:
-    h = hashlib.sha256()
-    with open_regular(path) as fh:
-        for block in iter(lambda: fh.read(1 << 20), b""):
-            h.update(block)
-    return h.hexdigest()
 
 
 def _unix(text: str) -> float:
@@ -111,7 +104,7 @@ def _message(path, cdm, ids, hbr_m, risk) -> Message:
         message_id=cdm.header["MESSAGE_ID"], originator=cdm.header["ORIGINATOR"],
         creation_utc=iso_z(parse_iso(cdm.header["CREATION_DATE"]), 3),
         creation_unix_s=_unix(cdm.header["CREATION_DATE"]), path=os.path.abspath(path),
-        sha256=_sha256(path), object1_id=ids[0], object1_name=o1.fields.get("OBJECT_NAME", ""),
+        sha256=file_digest(path)["sha256"], object1_id=ids[0], object1_name=o1.fields.get("OBJECT_NAME", ""),
         object2_id=ids[1], object2_name=o2.fields.get("OBJECT_NAME", ""),
         tca_utc=iso_z(parse_iso(cdm.tca_text), 6), tca_unix_s=_unix(cdm.tca_text),
         miss_km=risk["miss_km"], pc_sender=pc_sender, pc=risk["pc"], pc_max=risk["pc_max"],
@@ -158,7 +151,7 @@ def receive(store, paths: list[str], hbr_m, report: Report, strict: bool = False
             out.refused += 1
             continue
         try:
-            status = take_in(store, m, tol_s)
+            status, ev = take_in(store, m, tol_s)
         except ValueError as exc:
             report(f"refused: {path}: {exc}")
             out.refused += 1
@@ -168,8 +161,6 @@ def receive(store, paths: list[str], hbr_m, report: Report, strict: bool = False
             report(f"already in: {path}: {m.message_id}")
             continue
         out.taken += 1
-        ev = store.conn.execute("SELECT event_id FROM received WHERE message_id = ?",
-                                (m.message_id,)).fetchone()["event_id"]
         theirs = f"{m.pc_sender:.2e}" if m.pc_sender is not None else "not given"
         report(f"taken in: {path}: {m.message_id} {m.object1_name or m.object1_id} x "
                f"{m.object2_name or m.object2_id} TCA {m.tca_utc[:19]}Z miss {m.miss_km * 1e3:.0f} m "

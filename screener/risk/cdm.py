@@ -213,24 +213,19 @@ def write_cdm(path: str, header: dict, relative: dict, objects: list[dict],
               comments: list[str] = ()) -> None:
     """objects: two dicts with OBJECT_META keys plus 'r_km', 'v_km_s', 'cov_rtn_m' (6x6).
     comments go after the header as COMMENT lines (the standard allows them there)."""
-    units = {"MISS_DISTANCE": "m", "RELATIVE_SPEED": "m/s", "COLLISION_PROBABILITY": None, "X": "km", "Y": "km", "Z": "km",
-             "X_DOT": "km/s", "Y_DOT": "km/s", "Z_DOT": "km/s"}
     lines = [f"{k:<36}= {header[k]}" for k in HEADER]
     lines += [f"COMMENT {c}" for c in comments]
     for k, v in relative.items():
-        u = units.get(k) or ("m" if k.startswith("RELATIVE_POSITION") else
-                             "m/s" if k.startswith("RELATIVE_VELOCITY") else None)
+        u = _unit_of(k)
         lines.append(f"{k:<36}= {v}" + (f" [{u}]" if u else ""))
     for obj in objects:
         for k in OBJECT_META:
             lines.append(f"{k:<36}= {obj[k]}")
         for k, x in zip(STATE, [*obj["r_km"], *obj["v_km_s"]]):
-            lines.append(f"{k:<36}= {x:.9f} [{units[k]}]")
+            lines.append(f"{k:<36}= {x:.9f} [{_unit_of(k)}]")
         c = np.asarray(obj["cov_rtn_m"])
         for name in COVARIANCE:
             a, b = name[1:].split("_")
-            i, j = COV_AXES.index(a), COV_AXES.index(b)
-            unit = "m**2" if i < 3 and j < 3 else "m**2/s" if (i < 3) != (j < 3) else "m**2/s**2"
-            lines.append(f"{name:<36}= {c[i, j]:.9e} [{unit}]")
+            lines.append(f"{name:<36}= {c[COV_AXES.index(a), COV_AXES.index(b)]:.9e} [{_unit_of(name)}]")
     with open(path, "w", encoding="utf-8") as fh:
         fh.write("\n".join(lines) + "\n")

@@ -68,16 +68,16 @@ def _rethread(conn: sqlite3.Connection, a: str, b: str, tol_s: float) -> None:
         conn.executemany("UPDATE received SET thread = ? WHERE id = ?", [(first, r["id"]) for r in g])
 
 
-def take_in(store: Store, m: Message, tol_s: float) -> str:
-    """Store one message; returns 'new', or 'known' for a MESSAGE_ID already taken in with the
-    same content.  The same MESSAGE_ID with other content raises ValueError with the reason
+def take_in(store: Store, m: Message, tol_s: float) -> tuple[str, int | None]:
+    """Store one message; returns ('new', our event id it joined or None), or ('known', None)
+    for a MESSAGE_ID already taken in with the same content.  The same MESSAGE_ID with other content raises ValueError with the reason
     (the caller refuses the file with it)."""
     conn = store.conn
     old = conn.execute("SELECT sha256, path FROM received WHERE message_id = ?",
                        (m.message_id,)).fetchone()
     if old is not None:
         if old["sha256"] == m.sha256:
-            return "known"
+            return "known", None
         raise ValueError(f"MESSAGE_ID {m.message_id} was taken in before from {old['path']} with "
                          f"other content; a message id names one message")
     try:
@@ -96,7 +96,7 @@ def take_in(store: Store, m: Message, tol_s: float) -> str:
     except sqlite3.Error as exc:
         raise StoreError("the message was read but not stored: "
                          + describe_sqlite_error(store.path, exc, store.lock_wait_s)) from None
-    return "new"
+    return "new", event
 
 
 def rematch(store: Store, tol_s: float) -> int:
@@ -125,22 +125,23 @@ def received_for_event(store: Store, event_id: int) -> list[dict]:
         (event_id,))]
 
 
+def _grouped(store: Store, where: str, key: str) -> dict:
+    """Received messages matching `where`, grouped by column `key`, in creation order."""
+    out: dict = {}
+    for r in store.conn.execute(f"SELECT {SUMMARY} FROM received WHERE {where} "
+                                "ORDER BY creation_unix_s, message_id"):
+        out.setdefault(r[key], []).append(dict(r))
+    return out
+
+
 def received_by_event(store: Store) -> dict[int, list[dict]]:
     """{our event id: its received messages in creation order}."""
-    out: dict[int, list[dict]] = {}
-    for r in store.conn.execute(f"SELECT {SUMMARY} FROM received WHERE event_id IS NOT NULL "
-                                "ORDER BY creation_unix_s, message_id"):
-        out.setdefault(r["event_id"], []).append(dict(r))
-    return out
+    return _grouped(store, "event_id IS NOT NULL", "event_id")
 
 
 def received_only(store: Store) -> dict[str, list[dict]]:
     """{thread: its messages in creation order} for received events none of ours matches."""
-    out: dict[str, list[dict]] = {}
-    for r in store.conn.execute(f"SELECT {SUMMARY} FROM received WHERE event_id IS NULL "
-                                "ORDER BY creation_unix_s, message_id"):
-        out.setdefault(r["thread"], []).append(dict(r))
-    return out
+    return _grouped(store, "event_id IS NULL", "thread")
 
 
 def as_exported(r: dict) -> dict:

@@ -17,6 +17,7 @@ from textual.widgets import DataTable, Footer, Static
 
 from .. import MANEUVER_CAUTION
 from ..display import fmt_pc
+from ..maneuver.compare import cleared_text
 from .plots import trade_plot
 from .widgets import CautionBar
 
@@ -37,9 +38,7 @@ def option_cells(o, ev) -> tuple:
 
 
 def rescreen_lines(out: dict) -> list[str]:
-    cl = out["cleared"]
-    fate = (f"miss {cl['miss_km'] * 1000:.0f} m, Pc {fmt_pc(cl['pc'])}" if cl["in_volume"]
-            else "outside the screening volume")
+    fate = cleared_text(out["cleared"])
     lines = [f"re-screen: {len(out['encounters'])} encounters against {out['catalog_objects']:,} "
              f"objects from the burn ({out['window_days']:.2f} d); the event: {fate}"]
     for key, word in (("created", "NEW"), ("worsened", "WORSE")):
