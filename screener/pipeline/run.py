@@ -64,7 +64,7 @@ def take_in_received(cfg: Config, store, warn: Callable[[str], None],
                      note: Callable[[str], None]) -> None:
     """[received] folder: its CDMs into the store before the run (one log line per file; a
     refused file is a warning, never a failed run)."""
-    from ..pipeline.receive import receive
+    from .receive import receive
 
     fleet = set(cfg.members)
 
