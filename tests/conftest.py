@@ -25,6 +25,17 @@ def store(demo_store_path, tmp_path):
     return str(dst)
 
 
+@pytest.fixture
+def ours_store(store):
+    """The demo store without its received CDMs: our own screening alone, for the tests of
+    how our encounters are listed (received CDMs in the list: test_received_triage.py)."""
+    c = sqlite3.connect(store)
+    with c:
+        c.execute("DELETE FROM received")
+    c.close()
+    return store
+
+
 # Inputs tried by each fuzzing test (filled by the tests, printed at the end of the run)
 FUZZ_COUNTS: dict[str, int] = {}
 

@@ -207,12 +207,13 @@ def test_a_schema_1_store_migrates_in_place(tmp_path):
     c.commit()
     c.close()
     with Store(str(path)) as s:
-        assert s.version() == SCHEMA_VERSION == 5
+        assert s.version() == SCHEMA_VERSION == 6
         row = s.conn.execute("SELECT line1, omm_json FROM elsets").fetchone()
         assert row["line1"] == "l1" and row["omm_json"] is None
         assert "flags" in {r["name"] for r in s.conn.execute("PRAGMA table_info(encounters)")}
         assert s.conn.execute("SELECT count(*) FROM trades").fetchone()[0] == 0
         assert s.conn.execute("SELECT count(*) FROM received").fetchone()[0] == 0
+        assert "text" in {r["name"] for r in s.conn.execute("PRAGMA table_info(received)")}
 
 
 def test_a_catalog_that_shrinks_is_said_even_under_quiet(tmp_path):

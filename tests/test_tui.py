@@ -48,7 +48,8 @@ def _pairs(rows):
     return out
 
 
-async def test_opens_on_the_latest_run_one_row_per_series(store):
+async def test_opens_on_the_latest_run_one_row_per_series(ours_store):
+    store = ours_store
     app = make_app(store, now=lambda: NOW)
     async with app.run_test(size=(80, 24)) as pilot:
         await pilot.pause()
@@ -85,11 +86,12 @@ async def test_a_series_expands_and_collapses(store):
         assert len(lst.model) == n and lst.current_item.series.key == head.series.key
 
 
-async def test_fleet_summary_is_one_key_away(store):
+async def test_fleet_summary_is_one_key_away(ours_store):
     """f lists each spacecraft with its worst series and cumulative risk over its series
     (1 - prod(1 - series Pc); a series' Pc is its worst pass: not the passes multiplied)."""
     from screener.tui.fleet_view import COLUMNS, FleetScreen
 
+    store = ours_store
     pairs = _pairs(_db_rows(store))
     app = make_app(store, now=lambda: NOW)
     async with app.run_test(size=(80, 24)) as pilot:
@@ -125,7 +127,8 @@ async def test_sort_and_reverse(store):
         assert tca == sorted(tca)
 
 
-async def test_filters_level_primary_window_and_escape(store):
+async def test_filters_level_primary_window_and_escape(ours_store):
+    store = ours_store
     app = make_app(store, now=lambda: NOW)
     db = _db_rows(store)
     async with app.run_test(size=(80, 24)) as pilot:
@@ -288,11 +291,15 @@ async def test_fifty_thousand_rows_are_virtual(big_store):
         await pilot.pause()
         await pilot.press("a")                      # every pass, not one row per series
         lst = _list(app)
-        assert len(lst.model) == 50_000
-        assert lst.virtual_size.height == 50_000 and not lst.children
+        # the 50,000 passes and the demo's received-only events (one row each)
+        c = sqlite3.connect(big_store)
+        n = 50_000 + c.execute("SELECT count(DISTINCT thread) FROM received WHERE event_id IS NULL").fetchone()[0]
+        c.close()
+        assert len(lst.model) == n
+        assert lst.virtual_size.height == n and not lst.children
         await pilot.press("end")
-        assert lst.cursor == 49_999
-        assert lst.scroll_offset.y >= 49_999 - lst.size.height
+        assert lst.cursor == n - 1
+        assert lst.scroll_offset.y >= n - 1 - lst.size.height
         await pilot.press("pageup", "home")
         assert lst.cursor == 0 and lst.scroll_offset.y == 0
 
@@ -314,11 +321,12 @@ def _cells(text: str, width: int) -> dict:
 
 
 @pytest.mark.parametrize("size", [(80, 24), (160, 48)])
-async def test_rendered_rows_carry_the_stored_values(store, size):
+async def test_rendered_rows_carry_the_stored_values(ours_store, size):
     """What the snapshots show, asserted as values: each visible row's cells, cut at the
     column layout, equal the stored encounter's figures at display precision, with names."""
     from screener.display import fmt_pc, fmt_speed
 
+    store = ours_store
     db = {r["id"]: r for r in _db_rows(store)}
     app = make_app(store, now=lambda: NOW)
     async with app.run_test(size=size) as pilot:
@@ -333,7 +341,12 @@ async def test_rendered_rows_carry_the_stored_values(store, size):
             assert cells["level"] == want["attention"]
             assert cells["Pc"] == fmt_pc(want["pc"])
             assert abs(float(cells["miss m"]) - want["miss_km"] * 1e3) <= 0.5 + 1e-9
-            assert cells["rel v"] == fmt_speed(want["relative_speed_km_s"])
+            if "rel v" in cells:
+                assert cells["rel v"] == fmt_speed(want["relative_speed_km_s"])
+            else:       # under 90 columns: km/s, 0.1 above 10, 0.01 above 1, else 0.001
+                v = want["relative_speed_km_s"]
+                assert abs(float(cells["v km/s"]) - v) <= (0.05 if v >= 10 else 0.005 if v >= 1
+                                                            else 0.0005) + 1e-9
             assert cells["primary"] == want["primary_name"][:len(cells["primary"])] != ""
             assert cells["secondary"] == want["secondary_name"][:len(cells["secondary"])] != ""
             assert int(cells["n"]) == lst.model.item(y).count
@@ -390,8 +403,10 @@ async def test_column_titles_stand_over_their_columns_at_every_width(store):
             assert header.region.x == lst.region.x
             title, row = title[:lst.size.width], row[:lst.size.width]
             cols = layout(lst.size.width)
-            assert {c.title for c, _ in cols} >= {"level", "Pc", "miss m", "TCA UTC", "to TCA",
-                                                  "rel v", "primary", "secondary", "n", "flg"}, width
+            titles = {c.title for c, _ in cols}
+            assert titles >= {"level", "Pc", "miss m", "TCA UTC", "to TCA", "primary",
+                              "secondary", "n", "flg"}, width
+            assert titles & {"rel v", "v km/s"}, width
             for c, x in cols:
                 cell = title[x:x + c.width]
                 assert cell.strip() == c.title[:c.width], (width, c.title)

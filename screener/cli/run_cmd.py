@@ -117,8 +117,19 @@ def cmd_run(args) -> int:
         if args.json:
             write_result_json(args.json, out.result, {"run_id": out.run_id, "store": store.path,
                                                       "changes": out.diff.to_json()})
+        from ..exports.write import received_only_events, run_encounters
+        from ..store.queries import run as run_info, thresholds_of
+
+        info = run_info(store, out.run_id)
+        stored = run_encounters(store, out.run_id)       # levels from the best source
+        only = received_only_events(store, thresholds_of(info), info.window_start_unix_s)
         if not args.quiet:
+            from ..exports.report import received_lines
+
             print(render(out.result, thresholds=cfg.thresholds, diff=out.diff))
+            text = received_lines(stored, only)
+            if text:
+                print("\n" + text)
             print(f"\nStored as run {out.run_id} in {store.path}; log {out.log_path}")
             if exports:
                 from ..display import plural
@@ -126,14 +137,17 @@ def cmd_run(args) -> int:
                 print(f"Exports: {plural(len(exports), 'file')} in {folder}")
     finally:
         store.close()
-    act = [e for e in out.result.encounters if e.risk.get("attention") == ACT]
-    if args.fail_on_act and act:
+    # act by the best source: our screening, or a received CDM that outranks it
+    act = [e for e in stored if e.get("attention") == ACT]
+    act_only = [o for o in only if o["attention"] == ACT]
+    if args.fail_on_act and (act or act_only):
         from ..display import plural
-        from ..risk.series import ENGINE, group
+        from ..risk.series import STORED, group
 
-        n_series = len(group(act, ENGINE))
+        n_series = len(group(act, STORED))
         print(f"screener: {plural(n_series, 'series', 'series')} at the act level "
-              f"({plural(len(act), 'encounter')})", file=sys.stderr)
+              f"({plural(len(act), 'encounter')})"
+              + (f", {len(act_only)} received-only events" if act_only else ""), file=sys.stderr)
         return EXIT_ACT
     return EXIT_OK
 

@@ -108,3 +108,4 @@ def render_diff(diff) -> str:
             out.append(f"  {label:<10} {it['primary']} x {it['secondary']} TCA {it['tca']} "
                        f"{it['attention']}{was} miss {it['miss_km']:.3f} km Pc {fmt_pc(it['pc'])}")
     return "\n".join(out)
+

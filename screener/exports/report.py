@@ -45,7 +45,8 @@ def _fleet(series) -> list[str]:
 
 
 def render_report(run: dict, series, n_encounters: int, diff_text: str = "", fmt: str = "text",
-                  now: dt.datetime | None = None) -> str:
+                  now: dt.datetime | None = None, received_text: str = "") -> str:
+    """received_text: what received CDMs add (received_lines), shown after the ranked table."""
     now = now or dt.datetime.now(dt.timezone.utc)
     counts = {lv: sum(1 for g in series if LEVELS[g.level_rank] == lv) for lv in LEVELS}
     title = f"screener run {run['id']} - {run['name']}"
@@ -65,7 +66,9 @@ def render_report(run: dict, series, n_encounters: int, diff_text: str = "", fmt
                 f"<p><strong>{e(CAUTION)}</strong></p><h1>{e(title)}</h1>"
                 + "".join(f"<p>{e(f)}</p>" for f in facts)
                 + "<table border='1' cellpadding='3'><tr>" + "".join(f"<th>{e(h)}</th>" for h in HEAD)
-                + f"</tr>{rows}</table><h2>Per spacecraft</h2><p>{e(CUMULATIVE_RULE)}</p><ul>"
+                + f"</tr>{rows}</table>"
+                + ("<h2>Received CDMs</h2><pre>" + e(received_text) + "</pre>" if received_text else "")
+                + f"<h2>Per spacecraft</h2><p>{e(CUMULATIVE_RULE)}</p><ul>"
                 + "".join(f"<li>{e(f)}</li>" for f in fleet)
                 + f"</ul><p>{e(CAUTION)}</p></body></html>\n")
     widths = [3, 7, 7, 12, 12, 12, 27, 8, 9, 5, 6, 10]
@@ -73,6 +76,40 @@ def render_report(run: dict, series, n_encounters: int, diff_text: str = "", fmt
     lines += [" ".join(c[:w].ljust(w) for c, w in zip(r, widths)).rstrip() for r in _rows(series, now)]
     if len(series) > TOP_N:
         lines.append(f"... {len(series) - TOP_N} more series in the JSON/CSV exports")
+    if received_text:
+        lines += [""] + received_text.splitlines()
     lines += ["", f"Per spacecraft ({CUMULATIVE_RULE}):"] + [f"  {f}" for f in fleet]
     lines += ["", CAUTION]
     return "\n".join(lines) + "\n"
+
+
+def received_lines(encs: list[dict], only: list[dict]) -> str:
+    """What received CDMs add to a run: the events they join (latest message, the level the
+    best source sets), the disagreements, the events known only from them.  encs and only as
+    exports.write.run_encounters and received_only_events give them; "" when there are none."""
+    both = [e for e in encs if e.get("received")]
+    if not both and not only:
+        return ""
+    seen, rows = set(), []
+    for e in both:                       # one line per event (its worst pass first: encs are ranked)
+        if e["event_id"] in seen:
+            continue
+        seen.add(e["event_id"])
+        last = e["received"][-1]
+        theirs = fmt_pc(last["pc_sender"]) if last["pc_sender"] is not None else "-"
+        cmp_ = e.get("received_comparison") or {}
+        rows.append(f"  {e['primary_name'] or e['primary']} x {e['secondary_name'] or e['secondary']}"
+                    f": {len(e['received'])} msg, latest {last['message_id']} Pc ours "
+                    f"{fmt_pc(last['pc'])} theirs {theirs}; level {e['attention']}, "
+                    f"{e['attention_set_by']}"
+                    + (f"; DISAGREES: {cmp_['disagreement']}" if cmp_.get("disagrees") else ""))
+    for o in only:
+        rows.append(f"  RECEIVED ONLY {o['object1_name'] or o['object1']} x "
+                    f"{o['object2_name'] or o['object2']} TCA {o['tca'][:19]}Z miss "
+                    f"{o['miss_km'] * 1e3:.0f} m Pc ours {fmt_pc(o['pc'])}: level {o['attention']}; "
+                    f"{len(o['received'])} msg, no event of ours")
+    n_dis = sum(1 for e in both if (e.get("received_comparison") or {}).get("disagrees")
+                and e.get("worst_of_series", True))
+    head = (f"Received CDMs: {plural(len(seen), 'event')} of ours with messages, "
+            f"{plural(len(only), 'event')} only in them, {n_dis} disagreeing")
+    return "\n".join([head] + rows)

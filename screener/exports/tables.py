@@ -8,7 +8,7 @@ import math
 
 from .. import CAUTION
 
-CSV_FIELDS = ("event_id", "attention", "pc", "log10_pc", "pc_max", "pc_method", "flags",
+CSV_FIELDS = ("event_id", "attention", "attention_source", "attention_ours", "pc", "log10_pc", "pc_max", "pc_method", "flags",
               "assumed_covariance", "dilution_region", "short_encounter_ok", "covariance_source",
               "hbr_m", "series", "series_count", "worst_of_series", "primary", "primary_name",
               "primary_designator", "secondary", "secondary_name", "secondary_designator", "tca",

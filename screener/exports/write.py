@@ -9,15 +9,15 @@ import shutil
 import tempfile
 
 from ..errors import ScreenerError
-from ..risk.attention import LEVEL_RANK
-from ..risk.flags import encounter_flags, with_proximity
+from ..risk.attention import LEVEL_RANK, Thresholds, best_source
+from ..risk.flags import encounter_flags, with_proximity, with_received
 from ..risk.series import (CUMULATIVE_RULE, SERIES_PC_RULE, STORED, cumulative_by_primary,
                            describe_series, group)
-from ..risk.agreement import AgreementRule, compare
+from ..risk.agreement import AgreementRule, compare, rule_of
 from ..store import queries
 from ..store.received import as_exported, received_by_event, received_only
 from .cdm_out import write_event_cdm
-from .report import render_report
+from .report import received_lines, render_report
 from .tables import write_csv, write_json
 
 CDM_LEVEL = {"none": -1, "act": LEVEL_RANK["act"], "watch": LEVEL_RANK["watch"], "all": 99}
@@ -31,6 +31,7 @@ def run_encounters(store, run_id: int, rule: AgreementRule = AgreementRule()) ->
                               "pc DESC, miss_km", (run_id,)).fetchall()
     encs = [{**json.loads(r["data_json"]), "encounter_id": r["id"]} for r in rows]
     got = received_by_event(store)
+    thresholds = queries.thresholds_of(queries.run(store, run_id))
     for e, r in zip(encs, rows):
         e["flags"] = r["flags"] if r["flags"] is not None else stored_flags(e)
         msgs = got.get(e.get("event_id"), [])
@@ -38,25 +39,35 @@ def run_encounters(store, run_id: int, rule: AgreementRule = AgreementRule()) ->
         if msgs:
             e["received"] = [as_exported(m) for m in msgs]
             e["received_comparison"] = compare(e, msgs[-1], rule)
+            e["flags"] = with_received(e["flags"], True, e["received_comparison"]["disagrees"])
+        best = best_source(e.get("attention", "routine"), e.get("attention_reason", ""),
+                           bool(e.get("assumed_covariance")), msgs[-1] if msgs else None, thresholds)
+        e["attention_ours"] = e.get("attention")
+        e["attention"], e["attention_reason"] = best.level, best.reason
+        e["attention_source"], e["attention_set_by"] = best.source, best.said
     return encs
 
 
-def received_only_events(store) -> list[dict]:
-    """Events known only from received CDMs: one entry per thread, source "received"."""
+
+def received_only_events(store, thresholds: Thresholds = Thresholds(),
+                         since_unix_s: float | None = None) -> list[dict]:
+    """Events known only from received CDMs (TCA not before since_unix_s, the run's window
+    start, where given): one entry per thread, source "received", its attention level from
+    the latest message's Pc (ours, recomputed)."""
     out = []
     for thread, msgs in received_only(store).items():
         last = msgs[-1]
-        out.append({"source": "received", "thread": thread, "object1": last["object1_id"],
+        if since_unix_s is not None and last["tca_unix_s"] < since_unix_s:
+            continue
+        level, why = thresholds.level(last["pc"], last["pc_max"], bool(last["dilution"]))
+        out.append({"source": "received", "thread": thread, "attention": level,
+                    "attention_reason": why, "attention_source": "received",
+                    "object1": last["object1_id"],
                     "object1_name": last["object1_name"], "object2": last["object2_id"],
                     "object2_name": last["object2_name"], "tca": last["tca_utc"],
                     "miss_km": last["miss_km"], "pc": last["pc"], "pc_sender": last["pc_sender"],
                     "received": [as_exported(m) for m in msgs]})
     return out
-
-
-def agreement_rule(config: dict) -> AgreementRule:
-    got = {k: config.get(f"received_{k}") for k in ("tca_diff_s", "miss_diff_km", "pc_factor")}
-    return AgreementRule(**{k: float(v) for k, v in got.items() if v is not None})
 
 
 def stored_flags(e: dict) -> str:
@@ -136,12 +147,13 @@ def export_run(store, run_id: int | None, folder: str, json_out=True, csv_out=Tr
 
 
 def _write_all(store, info, folder, json_out, csv_out, cdm, report, diff_text, cdm_per) -> list[str]:
-    rule = agreement_rule(info.config)
+    rule = rule_of(info.config)
     encs = run_encounters(store, info.id, rule)
     series = run_series(encs)
+    only = received_only_events(store, queries.thresholds_of(info), info.window_start_unix_s)
     head = {"run": {k: v for k, v in dataclasses.asdict(info).items() if k not in ("config", "stats")},
             "series_rule": SERIES_PC_RULE, "cumulative_rule": CUMULATIVE_RULE,
-            "received_rule": rule.describe(), "received_only": received_only_events(store),
+            "received_rule": rule.describe(), "received_only": only,
             "series": [describe_series(g, lambda e: e["tca"]) for g in series],
             "cumulative_pc_by_primary": cumulative_by_primary(series)}
     written = []
@@ -164,6 +176,7 @@ def _write_all(store, info, folder, json_out, csv_out, cdm, report, diff_text, c
     if report != "none":
         p = os.path.join(folder, "report.html" if report == "html" else "report.txt")
         with open(p, "w", encoding="utf-8") as fh:
-            fh.write(render_report(dataclasses.asdict(info), series, len(encs), diff_text, report))
+            fh.write(render_report(dataclasses.asdict(info), series, len(encs), diff_text, report,
+                                   received_text=received_lines(encs, only)))
         written.append(p)
     return written

@@ -108,7 +108,14 @@ def _message(path, cdm, ids, hbr_m, risk) -> Message:
         object2_id=ids[1], object2_name=o2.fields.get("OBJECT_NAME", ""),
         tca_utc=iso_z(parse_iso(cdm.tca_text), 6), tca_unix_s=_unix(cdm.tca_text),
         miss_km=risk["miss_km"], pc_sender=pc_sender, pc=risk["pc"], pc_max=risk["pc_max"],
-        dilution=bool(risk["dilution_region"]), hbr_m=hbr_m, data=data)
+        dilution=bool(risk["dilution_region"]), hbr_m=hbr_m, data=data, text=_text_of(path))
+
+
+def _text_of(path: str) -> str:
+    """The file as it arrived (already read and checked once; kept so the message can be
+    written back out as it came)."""
+    with open_regular(path) as fh:
+        return fh.read().decode("utf-8", "replace")
 
 
 def _is_number(v: str) -> bool:

@@ -274,10 +274,10 @@ def execute(cfg: Config, store=None, progress: Progress | None = None, cancel=No
                 raise StoreError("the run was computed but not stored: "
                                  + describe_sqlite_error(store.path, exc, store.lock_wait_s)) from None
             out.store_path = store.path
-            if cfg.received_folder:
-                from ..store.received import rematch
+            from ..store.received import rematch
 
-                rematch(store, cfg.event_tca_tolerance_s)   # this run's events join messages
+            # this run's events join messages taken in now or before (screener receive)
+            rematch(store, cfg.event_tca_tolerance_s)
             stages["store_s"] = time.perf_counter() - t_store
             report("storing", 1, 1)
             note(f"committed run {out.run_id} to {store.path}: {out.diff.counts()}")

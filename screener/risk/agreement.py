@@ -23,6 +23,12 @@ class AgreementRule:
                 f"{self.miss_diff_km:g} km, or Pc by over a factor {self.pc_factor:g}")
 
 
+def rule_of(config: dict) -> AgreementRule:
+    """The rule a run was made with: its configuration snapshot's [received] thresholds."""
+    got = {k: config.get(f"received_{k}") for k in ("tca_diff_s", "miss_diff_km", "pc_factor")}
+    return AgreementRule(**{k: float(v) for k, v in got.items() if v is not None})
+
+
 def compare(ours: dict, theirs: dict, rule: AgreementRule = AgreementRule()) -> dict:
     """ours: an encounter as exported (tca, miss_km, radial/in_track/cross_track_km, pc);
     theirs: a received message (tca_utc, miss_km, pc, data_json's relative_position_rtn)."""

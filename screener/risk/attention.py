@@ -44,3 +44,37 @@ class Thresholds:
             return WATCH, (f"dilution region: Pc {pc:.1e} is low because the uncertainty is "
                            f"large; max Pc {pc_max:.1e}")
         return ROUTINE, f"Pc {pc:.1e} below {self.watch_pc:.0e}"
+
+
+@dataclasses.dataclass(frozen=True)
+class Attention:
+    """An event's attention level and which source set it."""
+    level: str
+    reason: str
+    source: str          # "ours" or "received"
+    said: str            # e.g. "set by received CDM X (measured covariance); ours: watch"
+
+    @property
+    def rank(self) -> int:
+        return LEVEL_RANK[self.level]
+
+
+def best_source(ours_level: str, ours_reason: str, ours_assumed: bool, latest: dict | None,
+                thresholds: Thresholds) -> Attention:
+    """The level from the best covariance source.  A received CDM carries both objects'
+    covariances from the sender's orbit determination (measured); it outranks our screening
+    when any of our covariance is assumed (a regime model).  When ours is measured too, the
+    more urgent of the two stands (neither is known to be better).  latest: the event's
+    latest received message (pc, pc_max, dilution, message_id), or None."""
+    if latest is None:
+        return Attention(ours_level, ours_reason, "ours", "set by our screening")
+    theirs, why = thresholds.level(latest["pc"], latest["pc_max"], bool(latest["dilution"]))
+    tag = f"received CDM {latest['message_id']} (measured covariance)"
+    if ours_assumed:
+        return Attention(theirs, why, "received",
+                         f"set by {tag}; it outranks our assumed covariance (ours: {ours_level})")
+    if LEVEL_RANK[theirs] < LEVEL_RANK[ours_level]:
+        return Attention(theirs, why, "received",
+                         f"set by {tag}, the more urgent of two measured sources (ours: {ours_level})")
+    return Attention(ours_level, ours_reason, "ours",
+                     f"set by our screening (measured covariance); {tag} says {theirs}")

@@ -14,7 +14,7 @@ import urllib.parse
 from ..environment import env_float
 from ..errors import ScreenerError
 
-SCHEMA_VERSION = 5
+SCHEMA_VERSION = 6
 ENV_STORE = "SCREENER_STORE"
 ENV_LOCK_WAIT = "SCREENER_LOCK_WAIT_S"
 DEFAULT_LOCK_WAIT_S = 60.0      # how long a writer waits for another run's commit to finish
@@ -152,6 +152,11 @@ MIGRATIONS: list[str] = [
     );
     CREATE INDEX received_pair ON received(object1_id, object2_id, tca_unix_s);
     CREATE INDEX received_event ON received(event_id);
+    """,
+    # 5 -> 6: each received message's own text as it arrived (written back out on request,
+    # the same bytes whatever became of the file); NULL for messages taken in before
+    """
+    ALTER TABLE received ADD COLUMN text TEXT;
     """,
 ]
 

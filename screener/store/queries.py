@@ -35,6 +35,8 @@ class EncounterRow:
     dilution: int
     covariance_source: str
     flags: str | None          # None for encounters stored before schema 3: see row_flags
+    source: str = "ours"       # "ours", "both" (received CDMs too) or "received" (only those)
+    attention_set_by: str = ""  # which source set the level (store.received.with_received)
 
 
 @dataclasses.dataclass(frozen=True)
@@ -64,6 +66,14 @@ class RunInfo:
                    r["n_primaries"], r["n_secondaries"], r["n_encounters"], r["software_version"],
                    json.loads(r["config_json"]), json.loads(r["thresholds_json"]),
                    json.loads(r["stats_json"]), r["log_path"])
+
+
+def thresholds_of(info: RunInfo | None):
+    """The run's own attention thresholds, as stored with it (defaults for no run)."""
+    from ..risk.attention import Thresholds
+
+    got = info.thresholds if info is not None else {}
+    return Thresholds(**{k: float(v) for k, v in (got or {}).items() if k in ("act_pc", "watch_pc")})
 
 
 def runs(store: Store, limit: int = 50) -> list[RunInfo]:

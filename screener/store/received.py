@@ -33,6 +33,7 @@ class Message:
     dilution: bool
     hbr_m: float
     data: dict
+    text: str | None = None      # the message as it arrived (None: not kept)
 
 
 def pair_key(a: str, b: str) -> tuple[str, str]:
@@ -86,12 +87,12 @@ def take_in(store: Store, m: Message, tol_s: float) -> tuple[str, int | None]:
             conn.execute(
                 "INSERT INTO received (message_id, originator, creation_utc, creation_unix_s, path,"
                 " sha256, object1_id, object1_name, object2_id, object2_name, tca_utc, tca_unix_s,"
-                " miss_km, pc_sender, pc, pc_max, dilution, hbr_m, event_id, thread, data_json)"
-                " VALUES (?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?)",
+                " miss_km, pc_sender, pc, pc_max, dilution, hbr_m, event_id, thread, data_json, text)"
+                " VALUES (?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?)",
                 (m.message_id, m.originator, m.creation_utc, m.creation_unix_s, m.path, m.sha256,
                  m.object1_id, m.object1_name, m.object2_id, m.object2_name, m.tca_utc,
                  m.tca_unix_s, m.miss_km, m.pc_sender, m.pc, m.pc_max, int(m.dilution), m.hbr_m,
-                 event, m.message_id, json.dumps(m.data, default=float)))
+                 event, m.message_id, json.dumps(m.data, default=float), m.text))
             _rethread(conn, m.object1_id, m.object2_id, tol_s)
     except sqlite3.Error as exc:
         raise StoreError("the message was read but not stored: "
@@ -113,7 +114,7 @@ def rematch(store: Store, tol_s: float) -> int:
     return changed
 
 
-SUMMARY = ("message_id, originator, creation_utc, tca_utc, tca_unix_s, miss_km, pc_sender, pc,"
+SUMMARY = ("id, message_id, originator, creation_utc, tca_utc, tca_unix_s, miss_km, pc_sender, pc,"
            " pc_max, dilution, hbr_m, thread, event_id, object1_id, object1_name, object2_id,"
            " object2_name, data_json")
 
@@ -159,3 +160,95 @@ def content(store: Store) -> list[tuple]:
         "SELECT message_id, originator, creation_utc, path, sha256, object1_id, object2_id,"
         " tca_utc, miss_km, pc_sender, pc, pc_max, dilution, hbr_m, event_id, thread, data_json"
         " FROM received"))
+
+
+def latest_by_event(store: Store) -> dict[int, dict]:
+    """{our event id: its latest received message (by creation date)}."""
+    return {ev: msgs[-1] for ev, msgs in received_by_event(store).items()}
+
+
+def message_text(store: Store, message_id: str) -> tuple[str, str]:
+    """(the message's text as it arrived, where it came from).  Messages taken in before the
+    store kept texts are read from their file, if it still has the same SHA-256; StoreError
+    says why not otherwise."""
+    import hashlib
+
+    r = store.conn.execute("SELECT text, path, sha256 FROM received WHERE message_id = ?",
+                           (message_id,)).fetchone()
+    if r is None:
+        raise StoreError(f"no received message {message_id} in {store.path}")
+    if r["text"] is not None:
+        return r["text"], r["path"]
+    try:
+        with open(r["path"], "rb") as fh:
+            raw = fh.read()
+    except OSError as exc:
+        raise StoreError(f"message {message_id}: its text was not kept and {r['path']} cannot "
+                         f"be read ({exc.strerror})") from None
+    if hashlib.sha256(raw).hexdigest() != r["sha256"]:
+        raise StoreError(f"message {message_id}: its text was not kept and {r['path']} has "
+                         f"changed since it was taken in (SHA-256 differs)")
+    return raw.decode("utf-8", "replace"), r["path"]
+
+
+def _assumed(covariance_source: str) -> bool:
+    return "assumed" in (covariance_source or "")
+
+
+def with_received(store: Store, rows: list, thresholds, members=(), window_start_unix_s=None,
+                  rule=None) -> list:
+    """A run's list rows with what received CDMs add: each event's level from the best
+    covariance source (risk.attention.best_source), R in its flags and its source ("ours",
+    "both"); then one row per received-only event whose TCA is not before the window start
+    (id = minus the latest message's row id; n = 0 passes of ours).  rule: the agreement
+    rule (risk.agreement) that sets X where the latest message disagrees."""
+    import dataclasses as _dc
+    import math
+
+    from ..risk.agreement import AgreementRule, compare
+    from ..risk.attention import LEVEL_RANK, best_source
+    from ..risk.flags import DILUTION, RECEIVED, with_received as _flag
+    from .queries import EncounterRow
+
+    latest = latest_by_event(store)
+    out = []
+    for r in rows:
+        m = latest.get(r.event_id)
+        if m is None:
+            out.append(r)
+            continue
+        best = best_source(r.attention, "", _assumed(r.covariance_source), m, thresholds)
+        differs = compare({"tca": r.tca_utc, "miss_km": r.miss_km, "pc": r.pc}, m,
+                          rule or AgreementRule())["disagrees"]
+        out.append(_dc.replace(r, attention=best.level, attention_rank=best.rank, source="both",
+                               flags=_flag(r.flags or "", True, differs), attention_set_by=best.said))
+    members = set(members)
+    for thread, msgs in received_only(store).items():
+        m = msgs[-1]
+        if window_start_unix_s is not None and m["tca_unix_s"] < window_start_unix_s:
+            continue
+        one = "object2" if m["object2_id"] in members and m["object1_id"] not in members else "object1"
+        two = "object1" if one == "object2" else "object2"
+        level, _why = thresholds.level(m["pc"], m["pc_max"], bool(m["dilution"]))
+        data = json.loads(m["data_json"]) if m.get("data_json") else {}
+        out.append(EncounterRow(
+            id=-m["id"], event_id=0, pc=m["pc"], log10_pc=math.log10(m["pc"]) if m["pc"] > 0 else None,
+            pc_max=m["pc_max"], miss_km=m["miss_km"], tca_unix_s=m["tca_unix_s"], tca_utc=m["tca_utc"],
+            relative_speed_km_s=float(data.get("relative_speed_km_s") or 0.0),
+            primary_id=m[f"{one}_id"], primary_name=m[f"{one}_name"], secondary_id=m[f"{two}_id"],
+            secondary_name=m[f"{two}_name"], attention=level, attention_rank=LEVEL_RANK[level],
+            trend="", change="CDM only", dilution=int(m["dilution"]),
+            covariance_source="received CDM", flags=(DILUTION if m["dilution"] else "") + RECEIVED,
+            source="received", attention_set_by=f"set by received CDM {m['message_id']} "
+                                                 f"(no event of ours)"))
+    return out
+
+
+def thread_of_row(store: Store, row_id: int) -> list[dict]:
+    """The messages of the received-only event a list row (id = -message row id) stands for."""
+    r = store.conn.execute("SELECT thread FROM received WHERE id = ?", (-row_id,)).fetchone()
+    if r is None:
+        return []
+    return [dict(x) for x in store.conn.execute(
+        f"SELECT {SUMMARY} FROM received WHERE thread = ? ORDER BY creation_unix_s, message_id",
+        (r["thread"],))]

@@ -164,6 +164,27 @@ class ScreenerApp(App):
         self.last_export = path
         return path
 
+    def write_received(self, message_id: str) -> str | None:
+        """Write a received CDM back out as it arrived, under the outputs folder's received/."""
+        from ..exports.received_out import write_received
+
+        store = self.open_store()
+        try:
+            path = write_received(store, message_id, os.path.join(self.outputs_folder(store), "received"))
+        except ScreenerError as exc:
+            self.notify(f"not written: {exc}", severity="error", markup=False)
+            return None
+        self.notify(f"received CDM written: {path}", timeout=8, markup=False)
+        self.last_export = path
+        return path
+
+    def write_received_row(self, row_id: int) -> str | None:
+        """The latest message of the received-only event a list row stands for."""
+        from ..store.received import thread_of_row
+
+        msgs = thread_of_row(self.open_store(), row_id)
+        return self.write_received(msgs[-1]["message_id"]) if msgs else None
+
     def on_unmount(self) -> None:
         self.close_store()
 

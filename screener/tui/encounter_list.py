@@ -24,6 +24,7 @@ from ..store.queries import EncounterRow
 from .model import Item, RunView, fmt_until
 
 TREND_SHORT = {"converging": "conv", "growing": "grow", "stable": "stab", "new": "new"}
+SOURCE_SHORT = {"ours": "ours", "both": "both", "received": "recv"}   # where the event comes from
 BIG = 10**6
 
 
@@ -31,8 +32,22 @@ def _name(name: str, oid: str) -> str:
     return name or oid
 
 
+def fmt_km_s(v_km_s: float) -> str:
+    """Relative speed in km/s in at most 6 characters (the narrow list's column)."""
+    if not v_km_s == v_km_s:
+        return "?"
+    return f"{v_km_s:.1f}" if v_km_s >= 10 else f"{v_km_s:.2f}" if v_km_s >= 1 else f"{v_km_s:.3f}"
+
+
+def _source(it: Item, now: float) -> str:
+    return SOURCE_SHORT.get(it.row.source, it.row.source)
+
+
 def _count(it: Item, now: float) -> str:
-    """A series' pass count; a pass of an expanded series shows a tree mark instead."""
+    """A series' pass count; a pass of an expanded series shows a tree mark instead; an event
+    known only from received CDMs has no passes of ours (0)."""
+    if it.row.source == "received":
+        return "0"
     if it.member:
         return "\u2514" if it.series is not None and it.series.count > 1 else "1"
     return str(it.count)
@@ -75,7 +90,8 @@ COLUMNS = (
     Column("TCA UTC", 11, False, lambda it, now: it.row.tca_utc[5:16].replace("T", " "), 90, 100),
     Column("TCA UTC", 14, False, lambda it, now: it.row.tca_utc[5:19].replace("T", " "), 100),
     Column("to TCA", 6, True, lambda it, now: fmt_until(it.row.tca_unix_s - now)),
-    Column("rel v", 9, True, lambda it, now: fmt_speed(it.row.relative_speed_km_s)),
+    Column("v km/s", 6, True, lambda it, now: fmt_km_s(it.row.relative_speed_km_s), 0, 90),
+    Column("rel v", 9, True, lambda it, now: fmt_speed(it.row.relative_speed_km_s), 90),
     Column("primary", 10, False, lambda it, now: _name(it.row.primary_name, it.row.primary_id), 0, 90),
     Column("primary", 11, False, lambda it, now: _name(it.row.primary_name, it.row.primary_id), 90, 100),
     Column("primary", 12, False, lambda it, now: _name(it.row.primary_name, it.row.primary_id), 100),
@@ -83,7 +99,9 @@ COLUMNS = (
     Column("secondary", 10, False, lambda it, now: _name(it.row.secondary_name, it.row.secondary_id), 90, 100),
     Column("secondary", 14, False, lambda it, now: _name(it.row.secondary_name, it.row.secondary_id), 100),
     Column("n", 3, True, _count),
-    Column("flg", 4, False, lambda it, now: item_flags(it)),
+    Column("flg", 5, False, lambda it, now: item_flags(it)),
+    Column("src", 4, False, _source, 110, 120),
+    Column("src", 4, False, _source, 140),
     Column("sec. id", 9, False, lambda it, now: it.row.secondary_id, 120),
     Column("trend", 10, False, lambda it, now: it.row.trend, 120),
     Column("change", 12, False, lambda it, now: it.row.change, 140),

@@ -13,14 +13,18 @@ from textual.widgets import Footer, Static
 
 from ..propagation.orbit import osculating
 from ..risk.pc import chan_is_reliable, pc_chan
+from ..risk.agreement import compare, rule_of
+from ..risk.attention import best_source
 from ..store import queries
+from ..store.queries import thresholds_of
+from ..store.received import received_for_event
 from ..display import PC_DISPLAY_FLOOR, fmt_pc
 from ..risk.series import PROXIMITY_SPEED_KM_S, ROWS, SERIES_PC_RULE, group
 from .model import fmt_ago, summary_line
-from .plots import history_lines, plane_plot, range_plot
+from .plots import history_lines, plane_plot, range_plot, received_plot
 from .widgets import CautionBar
 
-PLOTS = ("range", "plane", "history")
+PLOTS = ("range", "plane", "history", "received")
 
 
 def _orbit_line(state) -> str:
@@ -76,7 +80,19 @@ def trades_text(trades: list[dict]) -> list[str]:
     return out
 
 
-def received_text(msgs: list[dict]) -> list[str]:
+def comparison_text(c: dict | None) -> list[str]:
+    """Our screening against the latest received message (risk.agreement.compare)."""
+    if not c:
+        return []
+    ratio = c["pc_ratio_received_to_ours"]
+    line = (f"  latest vs ours: TCA {c['tca_diff_s']:+.1f} s, miss {c['miss_diff_km'] * 1e3:+.0f} m, "
+            f"Pc theirs/ours x{ratio:.3g}" if ratio is not None else "")
+    if c["disagrees"]:
+        return [line, f"  DISAGREES with our screening: {c['disagreement']} ({c['rule']})"]
+    return [line + " (agrees)"]
+
+
+def received_text(msgs: list[dict], comparison: dict | None = None) -> list[str]:
     """The received CDMs joined to this event, oldest first: when each was made and how long
     before TCA, the sender's Pc and ours from its states and covariances, miss and the
     combined sigma in the encounter plane."""
@@ -95,11 +111,13 @@ def received_text(msgs: list[dict]) -> list[str]:
         out.append(f"  {m['creation_utc'][5:16].replace('T', ' ')}Z  {lead_h:5.1f} h before TCA  "
                    f"Pc theirs {theirs} ours {fmt_pc(m['pc'])}  miss {m['miss_km'] * 1e3:.0f} m"
                    + (f"  sigma {sig:.0f} m" if sig is not None else "") + f"  {m['originator']}")
-    return out
+    return out + comparison_text(comparison)
 
 
 def facts_text(d: dict, now_unix_s: float, tca_unix_s: float, members=(), trades=(),
-               received=()) -> str:
+               received=(), best=None, comparison=None) -> str:
+    """best: the level from the best covariance source (risk.attention.best_source), where
+    received CDMs may have set it."""
     pc = d.get("pc") or 0.0
     xm, ym, sx, sy, hbr = (d.get(k) for k in ("plane_xm_m", "plane_ym_m", "plane_sx_m", "plane_sy_m", "hbr_m"))
     quad = d.get("pc_quadrature", 0.0)          # computed once, by the risk layer
@@ -144,6 +162,10 @@ def facts_text(d: dict, now_unix_s: float, tca_unix_s: float, members=(), trades
         f"  hard-body radius {hbr:g} m; covariance source: {d.get('covariance_source', '?')}",
         f"  attention {d.get('attention', '?')}: {d.get('attention_reason', '')}",
     ]
+    if best is not None and best.source == "received":
+        lines[-1] = f"  attention {best.level}: {best.reason}; {best.said}"
+    elif best is not None and received:
+        lines.append(f"  level {best.said}")
     if d.get("assumed_covariance"):
         lines.append("  ASSUMED COVARIANCE: a regime model, not measured; treat this Pc as indicative")
     if d.get("dilution_region"):
@@ -154,7 +176,7 @@ def facts_text(d: dict, now_unix_s: float, tca_unix_s: float, members=(), trades
     if d.get("volume_entry"):
         lines.append(f"  in the screening volume {d['volume_entry']} to {d['volume_exit']}")
     lines.append(f"trend {d.get('trend', '?')}, change since the previous run: {d.get('change', '?')}")
-    lines += received_text(list(received))
+    lines += received_text(list(received), comparison)
     lines += trades_text(list(trades))
     return "\n".join(lines)
 
@@ -167,11 +189,14 @@ class EventScreen(Screen):
     BINDINGS = [
         Binding("escape,backspace", "back", "Back"),
         Binding("question_mark", "help", "Help"),
-        Binding("1", "plot('range')", "Range"),
-        Binding("2", "plot('plane')", "Plane"),
-        Binding("3", "plot('history')", "History"),
+        # the plot keys are listed over the plot itself, so the footer keeps room for the rest
+        Binding("1", "plot('range')", "Range plot", show=False),
+        Binding("2", "plot('plane')", "Encounter plane plot", show=False),
+        Binding("3", "plot('history')", "History plot", show=False),
+        Binding("4", "plot('received')", "Received CDMs plot", show=False),
         Binding("e", "export", "Export CDM"),
         Binding("m", "trade", "Burn"),      # the manoeuvre trade (tui/trade_view.py)
+        Binding("w", "write_received", "Write received CDM"),
         Binding("y", "copy", "Copy line", show=False),
         Binding("q", "app.quit", "Quit", show=False),
     ]
@@ -183,6 +208,9 @@ class EventScreen(Screen):
         self.detail: dict = {}
         self.history: list[dict] = []
         self.members: list = []
+        self.received: list[dict] = []
+        self.best = None
+        self.comparison: dict | None = None
         self.tca_unix_s = 0.0
 
     def compose(self) -> ComposeResult:
@@ -201,16 +229,22 @@ class EventScreen(Screen):
                                              (self.encounter_id,)).fetchone()[0]
         d = self.detail
         self.members = queries.series_members(store, d["run_id"], d["primary"], d["secondary"])
+        self.received = received_for_event(store, d["event_id"])
+        info = queries.run(store, d["run_id"])
+        self.best = best_source(d.get("attention", "routine"), d.get("attention_reason", ""),
+                                bool(d.get("assumed_covariance")),
+                                self.received[-1] if self.received else None, thresholds_of(info))
+        self.comparison = (compare(d, self.received[-1], rule_of(info.config))
+                           if self.received else None)
         self.query_one("#event-title", Static).update(
             f"{d['primary_name'] or d['primary']} x {d['secondary_name'] or d['secondary']} | "
-            f"{d.get('attention', '?')} | Pc {fmt_pc(d.get('pc') or 0.0)} | miss {d['miss_km'] * 1e3:.0f} m"
+            f"{self.best.level}{' (received CDM)' if self.best.source == 'received' else ''} | Pc {fmt_pc(d.get('pc') or 0.0)} | miss {d['miss_km'] * 1e3:.0f} m"
             f" | {d['tca'][5:16].replace('T', ' ')}Z | event {d['event_id']}, run {d['run_id']}")
         self._facts()
         self._layout()
         self.query_one("#event-body").focus()
 
     def _facts(self) -> None:
-        from ..store.received import received_for_event
         from ..store.trades import trades_for_event
 
         store = self.app.open_store()
@@ -218,7 +252,7 @@ class EventScreen(Screen):
         self.query_one("#event-facts", Static).update(
             facts_text(d, self.app.now_unix_s(), self.tca_unix_s, self.members,
                        trades_for_event(store, d["event_id"]) if store else (),
-                       received_for_event(store, d["event_id"]) if store else ()))
+                       self.received, self.best, self.comparison))
 
     def on_screen_resume(self) -> None:
         if self.detail:          # back from the trade screen: show the trade just kept
@@ -246,9 +280,11 @@ class EventScreen(Screen):
         elif self.plot == "plane":
             lines = plane_plot(d["plane_xm_m"], d["plane_ym_m"], d["plane_sx_m"], d["plane_sy_m"],
                                d["hbr_m"], cols, rows)
+        elif self.plot == "received":
+            lines = received_plot(self.received, cols, rows)
         else:
             lines = history_lines(self.history, cols, rows)
-        keys = "  [1 range | 2 plane | 3 history]"
+        keys = "  [1 range | 2 plane | 3 history | 4 received]"
         self.query_one("#event-plot", Static).update("\n".join([f"plot: {self.plot}{keys}"] + lines))
 
     def action_plot(self, which: str) -> None:
@@ -262,6 +298,12 @@ class EventScreen(Screen):
 
     def action_export(self) -> None:
         self.app.export_cdm(self.encounter_id)
+
+    def action_write_received(self) -> None:
+        if not self.received:
+            self.notify("no received CDM for this event", severity="warning")
+            return
+        self.app.write_received(self.received[-1]["message_id"])
 
     def action_trade(self) -> None:
         from .trade_view import TradeScreen

@@ -204,3 +204,25 @@ def trade_plot(curves: Sequence[tuple[Sequence[tuple[float, float]], bool]], col
     axis = _fmt(10 ** x0).ljust(c.cols // 2) + _fmt(10 ** x1).rjust(c.cols - c.cols // 2)
     out.append(" " * (lab_w + 1) + axis)
     return out
+
+
+def received_plot(msgs: list[dict], cols: int, rows: int) -> list[str]:
+    """Received CDMs of one event: log10 Pc (ours, from each message's states and covariances)
+    and miss against hours before TCA at each message's creation, TCA at the right."""
+    from ..display import fmt_pc
+    from ..timeutil import parse_iso
+
+    if not msgs:
+        return ["no received CDMs for this event"]
+    lead_h = [-(parse_iso(m["tca_utc"]) - parse_iso(m["creation_utc"])).total_seconds() / 3600.0
+              for m in msgs]
+    pcs = [math.log10(m["pc"]) if m["pc"] > 0 else float("nan") for m in msgs]
+    theirs = [m["pc_sender"] for m in msgs if m.get("pc_sender")]
+    head = [f"received CDMs: {len(msgs)}, from {-lead_h[0]:.1f} h to {-lead_h[-1]:.1f} h before TCA"
+            + (f"; sender's latest Pc {fmt_pc(theirs[-1])}" if theirs else "")]
+    if len(msgs) == 1:
+        return head + ["(one message so far: no trend yet)"]
+    half = max(5, (rows - 1) // 2)
+    return (head + line_plot(lead_h, pcs, cols, half, "hours to TCA (creation)", "log10 Pc ours")
+            + line_plot(lead_h, [m["miss_km"] * 1e3 for m in msgs], cols, rows - 1 - half,
+                        "hours to TCA (creation)", "miss (m)"))

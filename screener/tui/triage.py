@@ -14,7 +14,10 @@ from textual.screen import Screen
 from textual.widgets import Footer, Input, Static
 
 from ..risk.attention import LEVELS
+from ..risk.agreement import rule_of
 from ..store import queries
+from ..store.queries import thresholds_of
+from ..store.received import with_received
 from ..workers import spawn_pool
 from .encounter_list import ColumnHeader, EncounterList
 from .model import RunView, summary_line
@@ -123,7 +126,9 @@ class TriageScreen(Screen):
             self.query_one("#run-line", Static).update(f"The store {store.path} holds no runs yet.")
             self._update_filter_line()
             return
-        rows = queries.encounter_rows(store, info.id)
+        rows = with_received(store, queries.encounter_rows(store, info.id), thresholds_of(info),
+                             info.config.get("members", {}), info.window_start_unix_s,
+                             rule_of(info.config))
         self.run_info = info
         old = self.model
         self.model = RunView(rows, self.app.now_unix_s())
@@ -247,8 +252,12 @@ class TriageScreen(Screen):
     @on(EncounterList.Opened)
     def _open(self, event: EncounterList.Opened) -> None:
         from .event_view import EventScreen
+        from .received_view import ReceivedScreen
 
-        self.app.push_screen(EventScreen(event.row.id))
+        if event.row.source == "received":
+            self.app.push_screen(ReceivedScreen(event.row.id, thresholds_of(self.run_info)))
+        else:
+            self.app.push_screen(EventScreen(event.row.id))
 
     def action_help(self) -> None:
         from .help import HelpScreen
@@ -260,7 +269,10 @@ class TriageScreen(Screen):
         if r is None:
             self.notify("nothing selected", severity="warning")
             return
-        self.app.export_cdm(r.id)
+        if r.source == "received":
+            self.app.write_received_row(r.id)
+        else:
+            self.app.export_cdm(r.id)
 
     def action_copy(self) -> None:
         r = self.query_one(EncounterList).current
