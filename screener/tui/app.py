@@ -160,7 +160,10 @@ class ScreenerApp(App):
         except OSError as exc:
             self.notify(f"export failed: {exc.strerror}", severity="error", markup=False)
             return None
-        self.notify(f"CDM written: {path}", timeout=8, markup=False)
+        return self._written("CDM", path)
+
+    def _written(self, what: str, path: str) -> str:
+        self.notify(f"{what} written: {path}", timeout=8, markup=False)
         self.last_export = path
         return path
 
@@ -174,9 +177,7 @@ class ScreenerApp(App):
         except ScreenerError as exc:
             self.notify(f"not written: {exc}", severity="error", markup=False)
             return None
-        self.notify(f"received CDM written: {path}", timeout=8, markup=False)
-        self.last_export = path
-        return path
+        return self._written("received CDM", path)
 
     def write_received_row(self, row_id: int) -> str | None:
         """The latest message of the received-only event a list row stands for."""

@@ -185,7 +185,19 @@ def fmt_speed_fine(v_km_s: float) -> str:
     return f"{v_km_s * 1e3:.1f} m/s" if v_km_s < 1.0 else f"{v_km_s:.3f} km/s"
 
 
-class EventScreen(Screen):
+class EventLayout(Screen):
+    """The event screens' common layout: title, scrolling facts and plot, caution, footer."""
+
+    def compose(self) -> ComposeResult:
+        yield Static("", id="event-title", markup=False)
+        with VerticalScroll(id="event-body"):
+            yield Static("", id="event-facts", markup=False)
+            yield Static("", id="event-plot", markup=False)
+        yield CautionBar()
+        yield Footer()
+
+
+class EventScreen(EventLayout):
     BINDINGS = [
         Binding("escape,backspace", "back", "Back"),
         Binding("question_mark", "help", "Help"),
@@ -212,14 +224,6 @@ class EventScreen(Screen):
         self.best = None
         self.comparison: dict | None = None
         self.tca_unix_s = 0.0
-
-    def compose(self) -> ComposeResult:
-        yield Static("", id="event-title", markup=False)
-        with VerticalScroll(id="event-body"):
-            yield Static("", id="event-facts", markup=False)
-            yield Static("", id="event-plot", markup=False)
-        yield CautionBar()
-        yield Footer()
 
     def on_mount(self) -> None:
         store = self.app.open_store()

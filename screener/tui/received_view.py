@@ -5,18 +5,14 @@ from __future__ import annotations
 
 import json
 
-from textual.app import ComposeResult
 from textual.binding import Binding
-from textual.containers import VerticalScroll
-from textual.screen import Screen
-from textual.widgets import Footer, Static
+from textual.widgets import Static
 
 from ..display import fmt_pc
 from ..store.received import thread_of_row
-from .event_view import received_text
+from .event_view import EventLayout, received_text
 from .model import fmt_ago, summary_line
 from .plots import received_plot
-from .widgets import CautionBar
 
 
 def received_facts(msgs: list[dict], thresholds, now_unix_s: float) -> str:
@@ -52,7 +48,7 @@ def received_facts(msgs: list[dict], thresholds, now_unix_s: float) -> str:
     return "\n".join(lines + received_text(msgs))
 
 
-class ReceivedScreen(Screen):
+class ReceivedScreen(EventLayout):
     BINDINGS = [
         Binding("escape,backspace", "back", "Back"),
         Binding("question_mark", "help", "Help"),
@@ -66,14 +62,6 @@ class ReceivedScreen(Screen):
         self.row_id = row_id
         self.thresholds = thresholds
         self.msgs: list[dict] = []
-
-    def compose(self) -> ComposeResult:
-        yield Static("", id="event-title", markup=False)
-        with VerticalScroll(id="event-body"):
-            yield Static("", id="event-facts", markup=False)
-            yield Static("", id="event-plot", markup=False)
-        yield CautionBar()
-        yield Footer()
 
     def on_mount(self) -> None:
         self.msgs = thread_of_row(self.app.open_store(), self.row_id)
