@@ -56,7 +56,7 @@ def demo_store(folder) -> str:
     store = os.path.join(folder, "store.sqlite")
     for cfg in ("demo-previous.toml", "demo.toml"):
         p = screener("run", "--config", os.path.join(DEMO, cfg), "--store", store, "--quiet",
-                     "--no-exports")
+                     "--no-exports", "--no-alerts")
         assert p.returncode == 0, p.stderr
     return store
 

@@ -89,7 +89,7 @@ def test_trend_comes_from_runs_with_different_inputs(two_runs, tmp_path):
     store, _pa, _pb, d = two_runs
     copy = tmp_path / "s.sqlite"
     shutil.copy(store, copy)
-    p = screener("run", "--config", str(d / "b.toml"), "--store", str(copy), "--quiet", "--no-exports")
+    p = screener("run", "--config", str(d / "b.toml"), "--store", str(copy), "--quiet", "--no-exports", "--no-alerts")
     assert p.returncode == 0, p.stderr
     conn = sqlite3.connect(copy)
     b = {r["event_id"]: r["trend"] for r in _rows(conn, 2)}
@@ -150,11 +150,11 @@ def test_exit_codes(tmp_path):
     store = str(tmp_path / "s.sqlite")
     # 3: --fail-on-act with act-level events (the demo's engineered head-on passes)
     p = screener("run", "--config", os.path.join(DEMO, "demo.toml"), "--store", store, "--quiet",
-                 "--no-exports", "--fail-on-act")
+                 "--no-exports", "--no-alerts", "--fail-on-act")
     assert p.returncode == 3 and "act level" in p.stderr
     # 0 without the flag
     p = screener("run", "--config", os.path.join(DEMO, "demo.toml"), "--store", store, "--quiet",
-                 "--no-exports")
+                 "--no-exports", "--no-alerts")
     assert p.returncode == 0, p.stderr
     # 2: bad configuration, file and line named
     bad = tmp_path / "bad.toml"
@@ -193,7 +193,7 @@ def test_newer_schema_is_refused(tmp_path):
 
 def test_a_schema_1_store_migrates_in_place(tmp_path):
     """A store written before element sets were kept as OMM keywords (and before encounters
-    kept their flags, before manoeuvre trades and received CDMs were kept) opens and migrates
+    kept their flags, before manoeuvre trades, received CDMs and alerts were kept) opens and migrates
     through every step."""
     import sqlite3
 
@@ -207,12 +207,13 @@ def test_a_schema_1_store_migrates_in_place(tmp_path):
     c.commit()
     c.close()
     with Store(str(path)) as s:
-        assert s.version() == SCHEMA_VERSION == 6
+        assert s.version() == SCHEMA_VERSION == 7
         row = s.conn.execute("SELECT line1, omm_json FROM elsets").fetchone()
         assert row["line1"] == "l1" and row["omm_json"] is None
         assert "flags" in {r["name"] for r in s.conn.execute("PRAGMA table_info(encounters)")}
         assert s.conn.execute("SELECT count(*) FROM trades").fetchone()[0] == 0
         assert s.conn.execute("SELECT count(*) FROM received").fetchone()[0] == 0
+        assert s.conn.execute("SELECT count(*) FROM alerts").fetchone()[0] == 0
         assert "text" in {r["name"] for r in s.conn.execute("PRAGMA table_info(received)")}
 
 
@@ -221,7 +222,7 @@ def test_a_catalog_that_shrinks_is_said_even_under_quiet(tmp_path):
     run warns on stderr under --quiet, and refuses to screen with fail_on_input_drop."""
     store = str(tmp_path / "s.sqlite")
     full = write_config(tmp_path / "a.toml", days=0.3, name="n")
-    assert screener("run", "--config", full, "--store", store, "--quiet", "--no-exports").returncode == 0
+    assert screener("run", "--config", full, "--store", store, "--quiet", "--no-exports", "--no-alerts").returncode == 0
     lines = open(f"{DEMO}/catalog.tle").read().splitlines()
     one = next(k for k, t in enumerate(lines) if t.startswith("1 "))
     (tmp_path / "one.tle").write_text("\n".join(lines[one - 1:one + 2]) + "\n")
@@ -229,10 +230,10 @@ def test_a_catalog_that_shrinks_is_said_even_under_quiet(tmp_path):
     text = open(small).read().replace(f'"{DEMO}/catalog.tle", "{DEMO}/catalog-history.tle"',
                                       f'"{tmp_path}/one.tle"')
     open(small, "w").write(text.replace("workers = 1", "workers = 1\nfail_on_input_drop = true", 1))
-    p = screener("run", "--config", small, "--store", store, "--quiet", "--no-exports")
+    p = screener("run", "--config", small, "--store", store, "--quiet", "--no-exports", "--no-alerts")
     assert p.returncode == 2 and "nothing screened" in p.stderr and "Traceback" not in p.stderr
     open(small, "w").write(text)
-    p = screener("run", "--config", small, "--store", store, "--quiet", "--no-exports")
+    p = screener("run", "--config", small, "--store", store, "--quiet", "--no-exports", "--no-alerts")
     assert p.returncode == 0, p.stderr
     assert "inputs shrank: the catalog has 1 object, 4008 in run 1" in p.stderr
     conn = sqlite3.connect(store)

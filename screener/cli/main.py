@@ -5,6 +5,7 @@ Exit codes (for cron):
   2  bad input or configuration (the message names file, line and reason)
   3  an event at the "act" attention level was found (only with --fail-on-act)
   4  the store could not be opened or written
+  5  alert-test: a configured alert channel failed (a failing alert never changes a run's code)
   130 interrupted by Ctrl-C, 143 by SIGTERM (nothing of the interrupted run is stored)
 """
 
@@ -21,6 +22,7 @@ EXIT_OK = 0
 EXIT_BAD_INPUT = 2
 EXIT_ACT = 3
 EXIT_STORE = 4
+EXIT_ALERT_FAILED = 5
 EXIT_INTERRUPTED = 130
 EXIT_TERMINATED = 143
 

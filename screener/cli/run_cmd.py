@@ -17,6 +17,8 @@ def add_run_parsers(sub) -> None:
     p.add_argument("--fail-on-act", action="store_true",
                    help="exit 3 when any event reaches the act level (for cron alerting)")
     p.add_argument("--no-exports", action="store_true", help="skip the configured exports")
+    p.add_argument("--no-alerts", action="store_true",
+                   help="send none of the configured alerts (a re-run by hand, a test)")
     g = p.add_argument_group("one-off options (instead of --config)")
     add_screen_args(g, required=False)
     p.set_defaults(func=cmd_run)
@@ -38,6 +40,10 @@ def add_run_parsers(sub) -> None:
                    help="one CDM per series (its worst pass; default) or per encounter")
     p.add_argument("--report", choices=("none", "text", "html"), default="text")
     p.set_defaults(func=cmd_export)
+
+    p = sub.add_parser("alert-test", help="send one test alert through every configured channel")
+    p.add_argument("--config", required=True, metavar="PATH", help="TOML configuration with [alerts]")
+    p.set_defaults(func=cmd_alert_test)
 
     p = sub.add_parser("tui", help="triage stored runs in the terminal")
     p.add_argument("--store", metavar="PATH")
@@ -94,10 +100,25 @@ def cmd_run(args) -> int:
         if not args.catalog or not args.start:
             raise ScreenerError("run needs --config PATH, or --catalog and --start for a one-off run")
         cfg = config_from_args(args)
-    store = open_store_for_writing(args.store or cfg.store)
-    prog = make_progress(args.quiet)
+    store = None
+    prog = None
     try:
+        store = open_store_for_writing(args.store or cfg.store)
+        prog = make_progress(args.quiet)
         out = execute(cfg, store=store, progress=prog, warn=None if args.quiet else warn)
+    except ScreenerError as exc:
+        if prog:
+            prog.close()
+            prog = None
+        if cfg.alerts.rules and not args.no_alerts:     # a failed night is told too ([[alerts.rule]] on = "run_problem")
+            from ..alerts import alert_failure
+
+            said = alert_failure(cfg, str(exc), store).summary()
+            if said:
+                print(said, file=sys.stderr)
+        if store is not None:
+            store.close()
+        raise
     finally:
         if prog:
             prog.close()
@@ -123,6 +144,15 @@ def cmd_run(args) -> int:
         info = run_info(store, out.run_id)
         stored = run_encounters(store, out.run_id)       # levels from the best source
         only = received_only_events(store, thresholds_of(info), info.window_start_unix_s)
+        told = ""
+        if cfg.alerts.rules and not args.no_alerts:
+            from ..alerts import alert_run
+            from ..pipeline.run import log_appender
+
+            sent = alert_run(store, cfg, out.run_id, out.degraded, log=log_appender(out.log_path))
+            told = sent.summary()
+            if args.quiet and sent.failed:      # cron mails stderr: a failed alert is said
+                print(f"screener: warning: {told}", file=sys.stderr)
         if not args.quiet:
             from ..exports.report import received_lines
 
@@ -130,6 +160,8 @@ def cmd_run(args) -> int:
             text = received_lines(stored, only)
             if text:
                 print("\n" + text)
+            if told:
+                print("\n" + told)
             print(f"\nStored as run {out.run_id} in {store.path}; log {out.log_path}")
             if exports:
                 from ..display import plural
@@ -172,6 +204,24 @@ def cmd_export(args) -> int:
     for p in written:
         print(p)
     return 0
+
+
+def cmd_alert_test(args) -> int:
+    from ..alerts import alert_test
+    from ..config import load_config
+    from .main import EXIT_ALERT_FAILED, EXIT_OK
+
+    cfg = load_config(args.config)
+    if not cfg.alerts.rules:
+        raise ScreenerError(f"{args.config}: no [[alerts.rule]] to test")
+    got = alert_test(cfg)
+    for name, r in got:
+        print(f"{name}: {r['channel']}: {'ok' if r['ok'] else 'FAILED'}: {r['detail']}")
+    bad = sum(1 for _, r in got if not r["ok"])
+    if bad:
+        print(f"screener: {bad} of {len(got)} alert channels failed", file=sys.stderr)
+        return EXIT_ALERT_FAILED
+    return EXIT_OK
 
 
 def cmd_tui(args) -> int:

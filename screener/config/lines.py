@@ -1,7 +1,8 @@
 """Where each key of a TOML file sits: dotted key path -> line number (for error messages).
 
 tomllib gives values, not positions; this scan covers the forms a configuration uses
-(tables, quoted table names, `key = value` lines, dotted keys).  Unknown forms map to no
+(tables, quoted table names, `key = value` lines, dotted keys; the k-th entry of an array of
+tables `[[name]]` is `name` + ("#k",)).  Unknown forms map to no
 line, and the error then names the key alone."""
 
 from __future__ import annotations
@@ -20,6 +21,7 @@ def _split(dotted: str) -> tuple[str, ...]:
 def key_lines(text: str) -> dict[tuple[str, ...], int]:
     out: dict[tuple[str, ...], int] = {}
     table: tuple[str, ...] = ()
+    arrays: dict[tuple[str, ...], int] = {}     # [[name]] seen so far: the k-th is name + ("#k",)
     in_multiline = False
     for n, line in enumerate(text.splitlines(), start=1):
         if in_multiline:
@@ -30,6 +32,10 @@ def key_lines(text: str) -> dict[tuple[str, ...], int]:
         if m:
             table = _split(m.group(1))
             out.setdefault(table, n)
+            if line.lstrip().startswith("[["):
+                arrays[table] = arrays.get(table, 0) + 1
+                table = table + (f"#{arrays[table]}",)
+                out.setdefault(table, n)
             continue
         m = _KEY.match(line)
         if m:

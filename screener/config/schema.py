@@ -16,6 +16,7 @@ from ..errors import ConfigError, ParseError
 from ..textfile import read_bytes
 from ..risk.attention import DEFAULT_ACT_PC, DEFAULT_WATCH_PC, Thresholds
 from ..risk.covariance import SigmaGrowth
+from .alerts import AlertRule, AlertsConfig, MailRelay, read_alerts
 from .lines import key_lines
 
 REGIMES = ("LEO", "MEO", "GEO", "HEO")
@@ -83,6 +84,7 @@ class Config:
     received_tca_diff_s: float = 10.0   # disagreement with a received CDM: TCA, miss, Pc factor
     received_miss_diff_km: float = 1.0
     received_pc_factor: float = 10.0
+    alerts: AlertsConfig = dataclasses.field(default_factory=AlertsConfig)
     # where each per-object entry was written ("file:line"), keyed by (table, object id), so
     # an entry that matches no object can be reported at its line
     object_entries: dict[tuple[str, str], str] = dataclasses.field(default_factory=dict)
@@ -107,6 +109,9 @@ class Config:
             use_history=bool(cov.get("use_history", True)))
         d["thresholds"] = Thresholds(**(d.get("thresholds") or {}))
         d["outputs"] = OutputsConfig(**(d.get("outputs") or {}))
+        al = d.get("alerts") or {}
+        d["alerts"] = AlertsConfig(rules=[AlertRule(**r) for r in al.get("rules", [])],
+                                   mail=MailRelay(**al["mail"]) if al.get("mail") else None)
         if d.get("ric_km") is not None:
             d["ric_km"] = tuple(d["ric_km"])
         known = {f.name for f in dataclasses.fields(cls)}
@@ -219,7 +224,7 @@ class _Reader:
 
 
 TOP = {"run", "fleet", "catalog", "volume", "covariance", "thresholds", "events", "outputs", "store",
-       "received"}
+       "received", "alerts"}
 
 
 def load_config(path: str) -> Config:
@@ -348,6 +353,8 @@ def _build(data: dict, rd: _Reader, base: str, path: str | None) -> Config:
     cfg.received_pc_factor = rd.num(rc, ("received", "pc_factor"), 10.0, lo=1.0)
     rf = rd.string(rc, ("received", "folder"), None)
     cfg.received_folder = os.path.normpath(os.path.join(base, os.path.expanduser(rf))) if rf else None
+    if "alerts" in data:
+        cfg.alerts = read_alerts(rd, data["alerts"], base)
     return cfg
 
 

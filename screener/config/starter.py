@@ -78,6 +78,35 @@ report = "text"              # none | text | html
 # tca_diff_s = 10.0          # disagreement with our own screening: TCA apart by more than this,
 # miss_diff_km = 1.0         # ... miss by more than this,
 # pc_factor = 10.0           # ... or Pc by more than this factor
+
+# Alerts after each run (`screener alert-test --config THIS_FILE` sends a test through all).
+# An event told of once is told again by the same rule only when it escalates.
+# [alerts.mail]
+# host = "smtp.example.org"
+# port = 587
+# from = "screener@example.org"
+# user = "screener"
+# password_env = "SCREENER_SMTP_PASSWORD"   # or password_file = "..." (mode 0600); never here
+# starttls = "when_offered"                 # | "required" | "never"
+#
+# [[alerts.rule]]
+# name = "act-to-duty"
+# on = "act"                 # act | escalation | tca_within | run_problem
+# mail_to = ["duty@example.org"]
+# command = ["./notify-duty", "--team", "fd"]   # argv (never a shell string); JSON on stdin
+# timeout_s = 30             # the command is killed after this
+# pc_factor = 10.0           # an event told of is told again when its Pc grows by this factor
+#
+# [[alerts.rule]]
+# name = "close-in"
+# on = "tca_within"
+# hours = 24                 # an act event whose TCA is less than this ahead
+# mail_to = ["duty@example.org"]
+#
+# [[alerts.rule]]
+# name = "run-problems"
+# on = "run_problem"         # the run failed, or inputs shrank, or objects were unusable
+# mail_to = ["ops@example.org"]
 '''
 
 

@@ -186,6 +186,21 @@ def open_log(folder: str, stamp: str) -> tuple[logging.Logger, str]:
     return log, path
 
 
+def log_appender(path: str | None) -> Callable[[str], None]:
+    """A function that adds one INFO line to a run's log after the run (e.g. its alerts), in
+    the log's own format; a log that cannot be written is left alone."""
+    def add(msg: str) -> None:
+        if not path:
+            return
+        stamp = dt.datetime.now().strftime("%Y-%m-%d %H:%M:%S,%f")[:23]
+        try:
+            with open(path, "a", encoding="utf-8") as fh:
+                fh.write(f"{stamp} INFO {msg}\n")
+        except OSError:
+            pass
+    return add
+
+
 def execute(cfg: Config, store=None, progress: Progress | None = None, cancel=None,
             now: dt.datetime | None = None, warn: Callable[[str], None] | None = None,
             executor=None) -> RunOutcome:

@@ -14,7 +14,7 @@ import urllib.parse
 from ..environment import env_float
 from ..errors import ScreenerError
 
-SCHEMA_VERSION = 6
+SCHEMA_VERSION = 7
 ENV_STORE = "SCREENER_STORE"
 ENV_LOCK_WAIT = "SCREENER_LOCK_WAIT_S"
 DEFAULT_LOCK_WAIT_S = 60.0      # how long a writer waits for another run's commit to finish
@@ -157,6 +157,30 @@ MIGRATIONS: list[str] = [
     # the same bytes whatever became of the file); NULL for messages taken in before
     """
     ALTER TABLE received ADD COLUMN text TEXT;
+    """,
+    # 6 -> 7: alerts sent after a run (screener.alerts): what was sent, through which
+    # channels, with what result; alert_subjects holds each event (series key) an alert told
+    # of, at which level and Pc, so that the next runs alert again only on escalation
+    """
+    CREATE TABLE alerts (
+        id INTEGER PRIMARY KEY,
+        run_id INTEGER REFERENCES runs(id),
+        rule TEXT NOT NULL,
+        trigger TEXT NOT NULL,
+        created_utc TEXT NOT NULL,
+        delivered INTEGER NOT NULL,
+        subject_line TEXT NOT NULL,
+        payload_json TEXT NOT NULL,
+        results_json TEXT NOT NULL
+    );
+    CREATE TABLE alert_subjects (
+        alert_id INTEGER NOT NULL REFERENCES alerts(id),
+        subject TEXT NOT NULL,
+        level TEXT NOT NULL,
+        pc REAL NOT NULL,
+        last_tca_unix_s REAL NOT NULL
+    );
+    CREATE INDEX alert_subjects_subject ON alert_subjects(subject, alert_id);
     """,
 ]
 
