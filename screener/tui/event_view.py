@@ -1,5 +1,6 @@
-"""One event in depth: geometry, both orbits, covariance, Pc by method, and three plots
-(range around TCA, the encounter plane, the event's history across runs)."""
+"""One event in depth: geometry, both orbits, covariance, Pc by method, and five plots
+(range around TCA, the encounter plane, the event's history across runs, its received CDMs,
+Pc sensitivity to the hard-body radius and the covariance's size)."""
 
 from __future__ import annotations
 
@@ -21,7 +22,7 @@ from ..store.received import received_for_event
 from ..display import PC_DISPLAY_FLOOR, fmt_pc
 from ..risk.series import PROXIMITY_SPEED_KM_S, ROWS, SERIES_PC_RULE, group
 from .model import fmt_ago, summary_line
-from .plots import history_lines, plane_plot, range_plot, received_plot
+from .plots import history_lines, plane_plot, range_plot, received_plot, sensitivity_plot
 from .widgets import CautionBar
 
 PLOTS = ("range", "plane", "history", "received")
@@ -206,6 +207,7 @@ class EventScreen(EventLayout):
         Binding("2", "plot('plane')", "Encounter plane plot", show=False),
         Binding("3", "plot('history')", "History plot", show=False),
         Binding("4", "plot('received')", "Received CDMs plot", show=False),
+        Binding("5", "plot('sensitivity')", "Pc sensitivity plot", show=False),
         Binding("e", "export", "Export CDM"),
         Binding("m", "trade", "Burn"),      # the manoeuvre trade (tui/trade_view.py)
         Binding("w", "write_received", "Write received CDM"),
@@ -286,9 +288,13 @@ class EventScreen(EventLayout):
                                d["hbr_m"], cols, rows)
         elif self.plot == "received":
             lines = received_plot(self.received, cols, rows)
+        elif self.plot == "sensitivity":
+            from ..risk.sensitivity import of_encounter
+
+            lines = sensitivity_plot(of_encounter(d), cols, rows + 4)
         else:
             lines = history_lines(self.history, cols, rows)
-        keys = "  [1 range | 2 plane | 3 history | 4 received]"
+        keys = "   1 range 2 plane 3 history 4 CDMs 5 sensitivity"
         self.query_one("#event-plot", Static).update("\n".join([f"plot: {self.plot}{keys}"] + lines))
 
     def action_plot(self, which: str) -> None:

@@ -226,3 +226,24 @@ def received_plot(msgs: list[dict], cols: int, rows: int) -> list[str]:
     return (head + line_plot(lead_h, pcs, cols, half, "hours to TCA (creation)", "log10 Pc ours")
             + line_plot(lead_h, [m["miss_km"] * 1e3 for m in msgs], cols, rows - 1 - half,
                         "hours to TCA (creation)", "miss (m)"))
+
+
+def sensitivity_plot(s, cols: int, rows: int) -> list[str]:
+    """Pc sensitivity (risk.sensitivity.Sensitivity): log10 Pc against the hard-body radius,
+    and against log10 of a factor on the combined covariance; dotted marks at this event's
+    radius, at factor 1 and at the factor of the largest Pc."""
+    if s is None:
+        return ["no encounter-plane geometry: no sensitivity curves"]
+
+    def lg(v):
+        return math.log10(max(v, PC_PLOT_FLOOR))
+
+    half = max(5, (rows - 2) // 2)
+    marks = [0.0] + ([math.log10(s.scale_at_max)] if s.scale_at_max > 0 else [])
+    head = [f"2-D Pc {s.pc_now:.1e} at HBR {s.hbr_now_m:g} m (this event); max {s.pc_max:.1e} "
+            f"at {s.scale_at_max:.3g}x the covariance", s.explain()]
+    return (head
+            + line_plot(s.hbr_m, [lg(p) for p in s.pc_by_hbr], cols, half, "hard-body radius (m)",
+                        "log10 Pc", marks_x=[s.hbr_now_m])
+            + line_plot([math.log10(f) for f in s.scale], [lg(p) for p in s.pc_by_scale], cols,
+                        rows - 2 - half, "log10 covariance factor", "log10 Pc", marks_x=marks))
