@@ -126,7 +126,8 @@ def test_export_command_on_a_stored_run(exported, tmp_path):
     store = exported.parent.parent / "s.sqlite"
     p = screener("export", "--store", str(store), "--out", str(tmp_path / "x"), "--cdm", "all")
     assert p.returncode == 0, p.stderr
-    assert (tmp_path / "x" / "encounters.csv").exists() and (tmp_path / "x" / "report.txt").exists()
+    # the HTML report is the default
+    assert (tmp_path / "x" / "encounters.csv").exists() and (tmp_path / "x" / "report.html").exists()
     doc = json.loads((tmp_path / "x" / "encounters.json").read_text())
     # one CDM per series (its worst pass) by default; --cdm-per encounter gives one per pass
     assert len(glob.glob(str(tmp_path / "x" / "cdm" / "*.cdm"))) == len(doc["series"])

@@ -72,3 +72,28 @@ def test_of_encounter_reads_the_plane_figures():
     s = of_encounter(e)
     assert s is not None and s.hbr_now_m == 9.0 and len(s.pc_by_hbr) == len(s.hbr_m)
     assert of_encounter({"miss_km": 1.0}) is None
+
+
+async def test_event_view_plots_the_sensitivity_at_80x24(store):
+    """Pilot at 80x24: key 5 in the event view draws both curves and the dilution reading;
+    its figures equal risk.sensitivity's for the event."""
+    from screener.store import Store
+    from screener.store.queries import encounter_detail
+    from screener.tui import make_app
+    from screener.tui.event_view import EventScreen
+
+    app = make_app(store_path=store)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await pilot.pause()
+        await pilot.press("enter")
+        await pilot.pause()
+        assert isinstance(app.screen, EventScreen)
+        await pilot.press("5")
+        await pilot.pause()
+        plot = str(app.screen.query_one("#event-plot").render())
+        d = app.screen.detail
+    with Store(store) as st:
+        s = of_encounter(encounter_detail(st, d["encounter_id"]))
+    assert "log10 Pc vs hard-body radius (m)" in plot and "log10 Pc vs log10 covariance factor" in plot
+    assert f"max {s.pc_max:.1e} at {s.scale_at_max:.3g}x the covariance" in plot
+    assert ("dilution region" in plot) == s.dilution

@@ -38,7 +38,8 @@ def add_run_parsers(sub) -> None:
                    help="CDM files for events at this level or above (default act)")
     p.add_argument("--cdm-per", choices=("series", "encounter"), default="series",
                    help="one CDM per series (its worst pass; default) or per encounter")
-    p.add_argument("--report", choices=("none", "text", "html"), default="text")
+    p.add_argument("--report", choices=("none", "text", "html"), default="html",
+                   help="report.html (default: self-contained, with plots), report.txt, or none")
     p.set_defaults(func=cmd_export)
 
     p = sub.add_parser("alert-test", help="send one test alert through every configured channel")

@@ -48,7 +48,7 @@ class OutputsConfig:
     csv: bool = True
     cdm: str = "act"                   # write CDMs for events at or above this level
     cdm_per: str = "series"            # one CDM per series (its worst pass) or per "encounter"
-    report: str = "text"
+    report: str = "html"
 
 
 @dataclasses.dataclass
@@ -345,7 +345,7 @@ def _build(data: dict, rd: _Reader, base: str, path: str | None) -> Config:
         csv=rd.boolean(out, ("outputs", "csv"), True),
         cdm=rd.string(out, ("outputs", "cdm"), "act", CDM_CHOICES),
         cdm_per=rd.string(out, ("outputs", "cdm_per"), "series", ("series", "encounter")),
-        report=rd.string(out, ("outputs", "report"), "text", REPORT_CHOICES))
+        report=rd.string(out, ("outputs", "report"), "html", REPORT_CHOICES))
     sp = rd.string(st, ("store", "path"), None)
     cfg.store = os.path.normpath(os.path.join(base, os.path.expanduser(sp))) if sp else None
     cfg.received_tca_diff_s = rd.num(rc, ("received", "tca_diff_s"), 10.0, positive=True)

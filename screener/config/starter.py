@@ -68,7 +68,7 @@ json = true
 csv = true
 cdm = "act"                  # CDM files for events at: none | act | watch | all
 cdm_per = "series"           # one CDM per series (its worst pass) | per "encounter"
-report = "text"              # none | text | html
+report = "html"              # html (self-contained, plots) | text | none
 
 # [store]
 # path = "screener.sqlite"   # default: $SCREENER_STORE or $XDG_DATA_HOME/screener/store.sqlite

@@ -1,10 +1,9 @@
-"""A one-page report of a run (plain text or HTML), suitable for e-mail: one row per series
+"""A one-page plain-text report of a run, suitable for e-mail: one row per series
 (a pair's passes in the window, ranked by its worst pass), then each spacecraft's risk."""
 
 from __future__ import annotations
 
 import datetime as dt
-import html
 
 from .. import CAUTION
 from ..display import fmt_pc, fmt_speed, plural
@@ -22,8 +21,8 @@ def _when(e: dict, now: dt.datetime) -> str:
     return e["tca"][:19].replace("T", " ") + (" (past)" if parse_iso(e["tca"]) < now else "")
 
 
-def _rows(series, now):
-    for n, g in enumerate(series[:TOP_N], start=1):
+def _rows(series, now, limit: int = TOP_N):
+    for n, g in enumerate(series[:limit], start=1):
         e = g.worst
         yield (str(n), LEVELS[g.level_rank], fmt_pc(g.pc), e.get("primary_name") or e["primary"],
                e.get("secondary_name") or e["secondary"], e["secondary"], _when(e, now),
@@ -44,9 +43,10 @@ def _fleet(series) -> list[str]:
     return out
 
 
-def render_report(run: dict, series, n_encounters: int, diff_text: str = "", fmt: str = "text",
+def render_report(run: dict, series, n_encounters: int, diff_text: str = "",
                   now: dt.datetime | None = None, received_text: str = "") -> str:
-    """received_text: what received CDMs add (received_lines), shown after the ranked table."""
+    """The plain-text report (the HTML one: html_report.py).  received_text: what received
+    CDMs add (received_lines), shown after the ranked table."""
     now = now or dt.datetime.now(dt.timezone.utc)
     counts = {lv: sum(1 for g in series if LEVELS[g.level_rank] == lv) for lv in LEVELS}
     title = f"screener run {run['id']} - {run['name']}"
@@ -59,18 +59,6 @@ def render_report(run: dict, series, n_encounters: int, diff_text: str = "", fmt
     if diff_text:
         facts += diff_text.splitlines()
     fleet = _fleet(series)
-    if fmt == "html":
-        e = lambda s: html.escape(s, quote=False)  # noqa: E731
-        rows = "".join("<tr>" + "".join(f"<td>{e(c)}</td>" for c in r) + "</tr>" for r in _rows(series, now))
-        return (f"<!doctype html><html><head><meta charset='utf-8'><title>{e(title)}</title></head><body>"
-                f"<p><strong>{e(CAUTION)}</strong></p><h1>{e(title)}</h1>"
-                + "".join(f"<p>{e(f)}</p>" for f in facts)
-                + "<table border='1' cellpadding='3'><tr>" + "".join(f"<th>{e(h)}</th>" for h in HEAD)
-                + f"</tr>{rows}</table>"
-                + ("<h2>Received CDMs</h2><pre>" + e(received_text) + "</pre>" if received_text else "")
-                + f"<h2>Per spacecraft</h2><p>{e(CUMULATIVE_RULE)}</p><ul>"
-                + "".join(f"<li>{e(f)}</li>" for f in fleet)
-                + f"</ul><p>{e(CAUTION)}</p></body></html>\n")
     widths = [3, 7, 7, 12, 12, 12, 27, 8, 9, 5, 6, 10]
     lines = [title, CAUTION, ""] + facts + ["", " ".join(h.ljust(w) for h, w in zip(HEAD, widths))]
     lines += [" ".join(c[:w].ljust(w) for c, w in zip(r, widths)).rstrip() for r in _rows(series, now)]

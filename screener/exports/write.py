@@ -156,6 +156,7 @@ def _write_all(store, info, folder, json_out, csv_out, cdm, report, diff_text, c
             "received_rule": rule.describe(), "received_only": only,
             "series": [describe_series(g, lambda e: e["tca"]) for g in series],
             "cumulative_pc_by_primary": cumulative_by_primary(series)}
+    plotted = plotted_series(store, series) if report == "html" else []
     written = []
     maneuverable = {k: v.get("maneuverable") for k, v in info.config.get("members", {}).items()}
     if json_out:
@@ -173,10 +174,49 @@ def _write_all(store, info, folder, json_out, csv_out, cdm, report, diff_text, c
         cdm_dir = os.path.join(folder, "cdm")
         os.makedirs(cdm_dir, exist_ok=True)
         written += [write_event_cdm(cdm_dir, e, maneuverable) for e in picked]
-    if report != "none":
-        p = os.path.join(folder, "report.html" if report == "html" else "report.txt")
+    if report == "text":
+        p = os.path.join(folder, "report.txt")
         with open(p, "w", encoding="utf-8") as fh:
-            fh.write(render_report(dataclasses.asdict(info), series, len(encs), diff_text, report,
+            fh.write(render_report(dataclasses.asdict(info), series, len(encs), diff_text,
                                    received_text=received_lines(encs, only)))
         written.append(p)
+    elif report == "html":
+        p = os.path.join(folder, "report.html")
+        with open(p, "w", encoding="utf-8") as fh:
+            fh.write(html_report(store, info, series, encs, plotted, diff_text,
+                                 received_lines(encs, only)))
+        written.append(p)
     return written
+
+
+def plotted_series(store, series) -> list:
+    """The series the HTML report plots (watch or above, most urgent first, at most
+    PLOTTED_MAX), each worst pass given its Pc sensitivity and its history over runs (so that
+    encounters.json carries every figure the report shows)."""
+    from ..risk.sensitivity import of_encounter
+    from .html_report import PLOTTED_MAX
+
+    out = []
+    for g in [g for g in series if g.level_rank <= LEVEL_RANK["watch"]][:PLOTTED_MAX]:
+        e = g.worst
+        s = of_encounter(e)
+        if s is not None:
+            e["pc_sensitivity"] = s.to_json()
+        e["history"] = queries.event_history(store, e["event_id"]) if e.get("event_id") else []
+        out.append(g)
+    return out
+
+
+def html_report(store, info, series, encs, plotted, diff_text: str, received_text: str) -> str:
+    from .html_report import render_html
+    from .svg_plots import event_svg
+
+    run = {**dataclasses.asdict(info), "inputs": json.loads(store.conn.execute(
+        "SELECT inputs_json FROM runs WHERE id = ?", (info.id,)).fetchone()[0])}
+    elsets = [dict(r) for r in store.conn.execute(
+        "SELECT source, epoch_utc FROM elsets WHERE run_id = ?", (info.id,))]
+    parts = [(g, g.worst["history"], g.worst.get("received") or [],
+              event_svg(g.worst, g.worst["history"], g.worst.get("received") or [],
+                        g.worst.get("pc_sensitivity"), f"ev{k}"))
+             for k, g in enumerate(plotted, start=1)]
+    return render_html(run, series, len(encs), parts, elsets, diff_text, received_text)
