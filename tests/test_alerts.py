@@ -270,3 +270,33 @@ def test_password_file_must_be_private(tmp_path):
         password_of(relay)
     os.chmod(f, stat.S_IRUSR | stat.S_IWUSR)
     assert password_of(relay) == "s3cret"
+
+
+def test_a_failed_run_is_told_and_keeps_its_exit_code(tmp_path):
+    """A run_problem rule hears of a run that failed (the store is not a store: exit 4 as
+    documented), with the reason in the alert's problems."""
+    hook = tmp_path / "hook.py"
+    hook.write_text(HOOK)
+    kept = tmp_path / "kept"
+    cfg = write_config(tmp_path / "c.toml",
+                       extra=rule("night", "run_problem", [sys.executable, str(hook), str(kept)]))
+    junk = tmp_path / "junk.sqlite"
+    junk.write_bytes(b"this is not sqlite" * 100)
+    p = screener("run", "--config", cfg, "--store", str(junk), "--quiet")
+    assert p.returncode == 4 and "Traceback" not in p.stderr
+    got = json.loads((kept / "alert-1.json").read_text())
+    assert got["trigger"] == "run_problem" and got["run"]["id"] is None
+    assert got["problems"][0].startswith("the run failed: ") and str(junk) in got["problems"][0]
+    assert got["caution"] == CAUTION
+
+
+def test_starttls_required_refuses_a_relay_without_it(tmp_path, smtp_server):
+    """starttls = "required" and a relay that offers none: not sent, and said so."""
+    from screener.alerts.channels import send_mail
+    from screener.config.alerts import MailRelay
+
+    ctl, handler = smtp_server
+    relay = MailRelay(host="127.0.0.1", port=ctl.port, sender="s@larkspur.invalid", starttls="required")
+    got = send_mail(relay, ["duty@larkspur.invalid"], "subject", "body")
+    assert not got["ok"] and "does not offer STARTTLS" in got["detail"]
+    assert handler.messages == []
