@@ -77,3 +77,29 @@ def osculating(r_km, v_km_s, mu_km3_s2: float | None = None,
         return Osculating(None, e, inc)
     rp, ra = a * (1.0 - e), a * (1.0 + e)
     return Osculating(OrbitSize(a, period_s(a, mu), rp, ra, rp - re, ra - re), e, inc)
+
+
+def regimes_many(r_km, v_km_s, mu_km3_s2: float | None = None,
+                 earth_radius_km: float | None = None) -> list[str]:
+    """The regime (OrbitSize.regime) of the osculating orbit of each of many states, (n, 3)
+    arrays; an unbound state counts as HEO.  The same formulas as osculating(), in arrays."""
+    import numpy as np
+
+    from ..constants import MU_EARTH_KM3_S2, RE_WGS84_KM
+
+    mu = MU_EARTH_KM3_S2 if mu_km3_s2 is None else mu_km3_s2
+    re = RE_WGS84_KM if earth_radius_km is None else earth_radius_km
+    r, v = np.asarray(r_km, float).reshape(-1, 3), np.asarray(v_km_s, float).reshape(-1, 3)
+    rn, vn = np.linalg.norm(r, axis=1), np.linalg.norm(v, axis=1)
+    h = np.cross(r, v)
+    e = np.linalg.norm(np.cross(v, h) / mu - r / rn[:, None], axis=1)
+    with np.errstate(divide="ignore"):
+        a = 1.0 / (2.0 / rn - vn * vn / mu)
+    out = []
+    for ak, ek in zip(a.tolist(), e.tolist()):
+        if ak <= 0:
+            out.append("HEO")
+            continue
+        rp, ra = ak * (1.0 - ek), ak * (1.0 + ek)
+        out.append(OrbitSize(ak, period_s(ak, mu), rp, ra, rp - re, ra - re).regime)
+    return out

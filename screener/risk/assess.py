@@ -2,9 +2,11 @@
 
 from __future__ import annotations
 
+import math
+
 import numpy as np
 
-from .encounter_plane import project, ric_to_inertial_cov
+from .encounter_plane import project, project_many, ric_to_inertial_cov, ric_to_inertial_cov_many
 from .pc import (chan_is_reliable, in_dilution_region, pc_chan, pc_max_line, pc_max_scaled,
                  pc_max_scaled_many, pc_quadrature, pc_quadrature_many)
 
@@ -43,25 +45,32 @@ def pc_2d(r1_km, v1_km_s, cov1_rtn_km2, r2_km, v2_km_s, cov2_rtn_km2, hbr_m: flo
     return _chosen((g.xm_m, g.ym_m, g.sx_m, g.sy_m, hbr_m))[0]
 
 
+def geometry_many(items) -> tuple[list, np.ndarray, np.ndarray]:
+    """_geometry for many encounters in array operations: (plane geometries, rho, w)."""
+    r1, v1, c1, r2, v2, c2 = (np.array([it[k] for it in items], float) for k in range(6))
+    c = ric_to_inertial_cov_many(c1, r1, v1) + ric_to_inertial_cov_many(c2, r2, v2)
+    rho, w = r2 - r1, v2 - v1
+    return project_many(rho, w, c), rho, w
+
+
 def assess_many(items) -> list[dict]:
-    """assess() for many encounters: items are its argument tuples.  The geometry is found per
-    encounter; the quadrature, the maximum over the covariance size and the dilution test run
-    as array operations over all of them (the same rules, so the same figures)."""
-    geo = []
-    for r1_km, v1_km_s, cov1, r2_km, v2_km_s, cov2, hbr_m, source in items:
-        geo.append((*_geometry(r1_km, v1_km_s, cov1, r2_km, v2_km_s, cov2), hbr_m, source))
-    if not geo:
+    """assess() for many encounters: items are its argument tuples.  The geometry, the
+    quadrature, the maximum over the covariance size and the dilution test run as array
+    operations over all of them (the same rules, so the same figures)."""
+    if not items:
         return []
-    xm, ym, sx, sy, R = (np.array(v) for v in zip(*[(g.xm_m, g.ym_m, g.sx_m, g.sy_m, h)
-                                                     for g, _r, _w, h, _s in geo]))
+    geos, rhos, ws = geometry_many(items)
+    xm, ym, sx, sy, R = (np.array(v) for v in zip(*[(g.xm_m, g.ym_m, g.sx_m, g.sy_m, it[6])
+                                                     for g, it in zip(geos, items)]))
     pc_ref = pc_quadrature_many(xm, ym, sx, sy, R)
     worst, _k = pc_max_scaled_many(xm, ym, sx, sy, R)
     dilution = pc_quadrature_many(xm, ym, sx * 0.9, sy * 0.9, R) > pc_ref
     out = []
-    for n, (g, rho, w, hbr_m, source) in enumerate(geo):
+    for n, (g, it) in enumerate(zip(geos, items)):
+        hbr_m, source = it[6], it[7]
         pc, method = _chosen((g.xm_m, g.ym_m, g.sx_m, g.sy_m, hbr_m), float(pc_ref[n]))
-        out.append(_result(g, rho, w, hbr_m, source, pc, method, float(pc_ref[n]), float(worst[n]),
-                           bool(dilution[n])))
+        out.append(_result(g, rhos[n], ws[n], hbr_m, source, pc, method, float(pc_ref[n]),
+                           float(worst[n]), bool(dilution[n])))
     return out
 
 
@@ -71,7 +80,7 @@ def _result(g, rho, w, hbr_m, source, pc, method, pc_ref, worst, dilution) -> di
         "log10_pc": float(np.log10(pc)) if pc > 0 else None,
         "pc_max": worst, "pc_max_any_shape": pc_max_line(g.miss_m, hbr_m),
         "dilution_region": dilution,
-        "miss_km": float(np.linalg.norm(rho)), "relative_speed_km_s": float(np.linalg.norm(w)),
+        "miss_km": math.sqrt(float(rho @ rho)), "relative_speed_km_s": math.sqrt(float(w @ w)),
         "sigma_major_m": max(g.sx_m, g.sy_m), "sigma_minor_m": min(g.sx_m, g.sy_m),
         "plane_xm_m": g.xm_m, "plane_ym_m": g.ym_m, "plane_sx_m": g.sx_m, "plane_sy_m": g.sy_m,
         "hbr_m": hbr_m, "covariance_source": source,

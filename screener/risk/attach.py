@@ -33,6 +33,17 @@ def _regime(r_km, v_km_s) -> str:
     return size.regime if size is not None else "HEO"
 
 
+def _regimes(encounters: Sequence[Encounter]) -> list[str]:
+    """_regime of the primary and the secondary of every encounter (interleaved), at once."""
+    from ..propagation.orbit import regimes_many
+
+    if not encounters:
+        return []
+    r = np.array([x for e in encounters for x in (e.primary_r_km, e.secondary_r_km)], float)
+    v = np.array([x for e in encounters for x in (e.primary_v_km_s, e.secondary_v_km_s)], float)
+    return regimes_many(r, v)
+
+
 def attach_risk(encounters: Sequence[Encounter], sources: CovarianceSources,
                 radius_m: Callable[[str], float] | None = None,
                 thresholds: Thresholds = Thresholds(),
@@ -45,14 +56,15 @@ def attach_risk(encounters: Sequence[Encounter], sources: CovarianceSources,
     aliases = aliases or {}
     total = len(encounters)
     staged = []
+    regimes = _regimes(encounters)
     for n, e in enumerate(encounters):
         if progress and n % 500 == 0:
             progress("risk", n, total)
         tjd, tfr = e.tca_jd
         est = []
-        for oid, r, v, age in ((e.primary, e.primary_r_km, e.primary_v_km_s, e.primary_age_days),
-                               (e.secondary, e.secondary_r_km, e.secondary_v_km_s, e.secondary_age_days)):
-            est.append(sources.estimate(oid, _regime(r, v), age, tjd, tfr, aliases.get(oid, ())))
+        for oid, regime, age in ((e.primary, regimes[2 * n], e.primary_age_days),
+                                 (e.secondary, regimes[2 * n + 1], e.secondary_age_days)):
+            est.append(sources.estimate(oid, regime, age, tjd, tfr, aliases.get(oid, ())))
         hbr_m = radius_m(e.primary) + radius_m(e.secondary)
         assumed_any = any(x.assumed for x in est)
         label = ASSUMED_LABEL if assumed_any else " + ".join(dict.fromkeys(x.source for x in est))
@@ -60,10 +72,12 @@ def attach_risk(encounters: Sequence[Encounter], sources: CovarianceSources,
                        (e.primary_r_km, e.primary_v_km_s, est[0].cov_rtn_km2, e.secondary_r_km,
                         e.secondary_v_km_s, est[1].cov_rtn_km2, hbr_m, label)))
     results = assess_many([x[4] for x in staged])
+    sigma3d_max = (np.linalg.eigvalsh(np.array([x[1][0].cov_rtn_km2 + x[1][1].cov_rtn_km2 for x in staged]))
+                   .max(axis=1).tolist() if staged else [])
     for n, ((e, est, hbr_m, assumed_any, _args), out) in enumerate(zip(staged, results)):
         if progress and n % 10 == 0:
             progress("risk", n, total)
-        sigma3d_km = math.sqrt(max(np.linalg.eigvalsh(est[0].cov_rtn_km2 + est[1].cov_rtn_km2)))
+        sigma3d_km = math.sqrt(sigma3d_max[n])
         t_enc_s = 2.0 * (5.0 * sigma3d_km + hbr_m / 1000.0) / max(e.relative_speed_km_s, 1e-9)
         short_ok = e.relative_speed_km_s >= SLOW_PASS_KM_S and t_enc_s <= SHORT_ENCOUNTER_MAX_S
         level, reason = thresholds.level(out["pc"], out["pc_max"], out["dilution_region"])

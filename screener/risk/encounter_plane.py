@@ -46,3 +46,36 @@ def ric_to_inertial_cov(cov_ric: np.ndarray, r_km, v_km_s) -> np.ndarray:
 
     Bm = ric_basis(np.asarray(r_km, float), np.asarray(v_km_s, float))
     return Bm.T @ np.asarray(cov_ric, float) @ Bm
+
+
+def plane_basis_many(rho_km: np.ndarray, w_km_s: np.ndarray) -> np.ndarray:
+    """plane_basis for (n, 3) arrays: (n, 2, 3), the same rule row by row."""
+    wh = w_km_s / np.linalg.norm(w_km_s, axis=1, keepdims=True)
+    rp = rho_km - np.einsum("ni,ni->n", rho_km, wh)[:, None] * wh
+    n = np.linalg.norm(rp, axis=1)
+    alt = np.cross(wh, np.array([0.0, 0.0, 1.0]))
+    alt /= np.linalg.norm(alt, axis=1, keepdims=True)
+    x = np.where((n > 0)[:, None], rp / np.where(n > 0, n, 1.0)[:, None], alt)
+    return np.stack([x, np.cross(wh, x)], axis=1)
+
+
+def project_many(rho_km: np.ndarray, w_km_s: np.ndarray, cov_combined_km2: np.ndarray) -> list[PlaneGeometry]:
+    """project() for many encounters at once: rho, w (n, 3) and combined covariances (n, 3, 3)."""
+    B = plane_basis_many(rho_km, w_km_s)
+    c2 = np.einsum("nij,njk,nlk->nil", B, cov_combined_km2, B) * 1e6
+    miss2 = np.einsum("nij,nj->ni", B, rho_km) * 1e3
+    vals, vecs = np.linalg.eigh(c2)
+    vals = np.maximum(vals, 1e-12)
+    m = np.einsum("nji,nj->ni", vecs, miss2)
+    sig = np.sqrt(vals)
+    miss = np.linalg.norm(miss2, axis=1)
+    return [PlaneGeometry(float(m[k, 0]), float(m[k, 1]), float(sig[k, 0]), float(sig[k, 1]),
+                          float(miss[k]), c2[k], B[k]) for k in range(len(m))]
+
+
+def ric_to_inertial_cov_many(cov_ric: np.ndarray, r_km: np.ndarray, v_km_s: np.ndarray) -> np.ndarray:
+    """ric_to_inertial_cov for (n, 3, 3) covariances and (n, 3) states."""
+    from ..screening.ric import ric_basis
+
+    Bm = ric_basis(r_km, v_km_s)
+    return np.einsum("nji,njk,nkl->nil", Bm, cov_ric, Bm)

@@ -83,7 +83,7 @@ def pc_quadrature_many(xm, ym, sx, sy, R) -> np.ndarray:
     return out
 
 
-GOLDEN_STEPS = 40      # bracket of 0.5 in log scale narrowed to ~5e-9 (0.618^40)
+GOLDEN_STEPS = 24      # a bracket of 1.0 in log scale narrowed to 1e-5 (0.618^24): Pc within ~1e-10 of the peak
 
 
 def pc_max_scaled_many(xm, ym, sx, sy, R) -> tuple[np.ndarray, np.ndarray]:
@@ -111,7 +111,7 @@ def pc_max_scaled_many(xm, ym, sx, sy, R) -> tuple[np.ndarray, np.ndarray]:
     return best_pc, best_k
 
 
-NARROW_GRID = np.linspace(-2.0, 2.0, 17)
+NARROW_GRID = np.linspace(-2.0, 2.0, 9)
 
 
 def _max_over_rows(rows, grid_of, xm, ym, sx, sy, R, d, best_pc, best_k, edge) -> None:

@@ -54,14 +54,53 @@ def _linear_pass(pos: np.ndarray, vel: np.ndarray, pairs: np.ndarray, dt_s: floa
     return d <= reach_km + margin
 
 
+# Any object's speed changes by at most g (surface gravity, 9.81e-3 km/s^2; less everywhere
+# above the surface) times the time elapsed: its speed over an interval is at most the larger
+# end speed plus g h/2.
+G_KM_S2 = 9.81e-3
+# Objects whose speed bound over an interval is at most this (every circular orbit above about
+# 150 km, MEO, GEO) are paired among themselves with a radius for two such speeds; the few
+# faster ones (eccentric orbits near perigee) get their own, wider query against all.
+SLOW_SPEED_KM_S = 8.6
+
+
+def _pairs_within(pos: np.ndarray, fast: np.ndarray, speed: np.ndarray, reach_km: float,
+                  dt: float) -> np.ndarray:
+    """Index pairs (a, b) of pos whose distance may fall to reach_km within +-dt/2: distance
+    at the sample <= reach + (s_a + s_b) dt/2 with s the speed bounds, by speed class."""
+    slow = np.nonzero(~fast)[0]
+    quick = np.nonzero(fast)[0]
+    out = []
+    if len(slow) > 1:
+        s_max = float(speed[slow].max())
+        t_slow = cKDTree(pos[slow], balanced_tree=False, compact_nodes=False)
+        p = t_slow.query_pairs(reach_km + s_max * dt, output_type="ndarray")
+        if len(p):
+            out.append(slow[p])
+    if len(quick):
+        all_max = float(speed.max())
+        t_quick = cKDTree(pos[quick], balanced_tree=False, compact_nodes=False)
+        p = t_quick.query_pairs(reach_km + all_max * dt, output_type="ndarray")
+        if len(p):
+            out.append(quick[p])
+        if len(slow):
+            m = t_quick.sparse_distance_matrix(t_slow, reach_km + (all_max + s_max) * dt / 2.0,
+                                               output_type="ndarray")
+            if len(m):
+                out.append(np.stack([quick[m["i"]], slow[m["j"]]], axis=1))
+    return np.concatenate(out) if out else np.empty((0, 2), dtype=np.int64)
+
+
 def kd_candidates(r: np.ndarray, v: np.ndarray, usable: np.ndarray, h_s: float, reach_km: float,
-                  v_max_km_s: float, substeps: int) -> np.ndarray:
+                  substeps: int) -> np.ndarray:
     """All-vs-all: unique (i, j, interval) with i < j.  Positions are interpolated (cubic Hermite)
-    at `substeps` points inside each interval; a cKDTree at each finds pairs within
-    reach + W * (h/substeps)/2, which covers every instant of the interval."""
+    at `substeps` points inside each interval; at each, cKDTrees find the pairs within
+    reach + (s_i + s_j) (h/substeps)/2, s an object's speed bound over the interval (the larger
+    end speed + g h/2), which covers every instant of the interval; pairs are then kept only
+    when their straight-line motion comes within reach plus a curvature margin."""
     n, m, _ = r.shape
     dt = h_s / substeps
-    radius = reach_km + (2.0 * v_max_km_s + ACCEL_BOUND_KM_S2 * dt) * dt / 2.0
+    speed = np.linalg.norm(v, axis=2)
     found = []
     for k in range(m - 1):
         ok = usable[:, k] & usable[:, k + 1]
@@ -70,16 +109,18 @@ def kd_candidates(r: np.ndarray, v: np.ndarray, usable: np.ndarray, h_s: float, 
             continue
         r0, r1 = r[idx, k], r[idx, k + 1]
         v0, v1 = v[idx, k] * h_s, v[idx, k + 1] * h_s
+        s_bound = np.maximum(speed[idx, k], speed[idx, k + 1]) + G_KM_S2 * h_s / 2.0
+        fast = s_bound > SLOW_SPEED_KM_S
         keys = []
         for q in range(substeps):
             u = (q + 0.5) / substeps
             pos, vel = hermite_cubic(u, r0, v0, r1, v1, h_s)
-            pairs = cKDTree(pos, balanced_tree=False, compact_nodes=False).query_pairs(
-                radius, output_type="ndarray")
+            pairs = _pairs_within(pos, fast, s_bound, reach_km, dt)
             if len(pairs):
                 pairs = pairs[_linear_pass(pos, vel, pairs, dt, reach_km)]
             if len(pairs):
-                keys.append(pairs[:, 0].astype(np.int64) * n + pairs[:, 1])
+                lo, hi = np.minimum(pairs[:, 0], pairs[:, 1]), np.maximum(pairs[:, 0], pairs[:, 1])
+                keys.append(lo.astype(np.int64) * n + hi)
         if keys:
             kk = np.unique(np.concatenate(keys))
             a, b = idx[kk // n], idx[kk % n]

@@ -73,24 +73,22 @@ class RunSignatures:
         return self._sig[run_id]
 
 
-def event_trend(conn: sqlite3.Connection, event_id: int, miss_km: float, signature: str,
+def event_trend(history: list[tuple[int, float]], miss_km: float, signature: str,
                 prev: sqlite3.Row | None, signature_of: RunSignatures) -> str:
     """This run's trend for an event: fitted over the event's earlier runs whose inputs
     differ from this run's (the latest of each set of inputs), so re-screening unchanged
     inputs never turns a trend into "stable"; with no such run it keeps the latest trend."""
     if prev is None:
         return NEW
-    rows = conn.execute("SELECT run_id, miss_km FROM encounters WHERE event_id = ? ORDER BY run_id",
-                        (event_id,)).fetchall()
     points: list[tuple[str, float]] = []
-    for r in rows:
-        sig = signature_of(r["run_id"])
+    for run_id, miss in history:
+        sig = signature_of(run_id)
         if sig == signature:
             continue
         if points and points[-1][0] == sig:
-            points[-1] = (sig, r["miss_km"])
+            points[-1] = (sig, miss)
         else:
-            points.append((sig, r["miss_km"]))
+            points.append((sig, miss))
     if not points:
         return prev["trend"]
     return trend_over([m for _s, m in points[-(TREND_POINTS - 1):]] + [miss_km])
@@ -100,31 +98,66 @@ def event_trend(conn: sqlite3.Connection, event_id: int, miss_km: float, signatu
 class Match:
     event_id: int
     prev: sqlite3.Row | None        # the event's latest earlier encounter, if any
+    history: list = dataclasses.field(default_factory=list)   # (run id, miss km) of earlier runs
 
 
 def match_events(conn: sqlite3.Connection, run_id: int, pairs, tol_s: float) -> list[Match]:
     """pairs: (primary_id, secondary_id, tca_unix_s) per encounter, in order.  Inside the
-    caller's transaction: updates or creates events and returns one Match per encounter."""
+    caller's transaction: updates or creates events and returns one Match per encounter.
+
+    Each encounter joins the earlier event of its pair whose last TCA is within tol_s of its
+    own (the closest; on a tie the oldest), unless an earlier encounter of this run took that
+    event; else it starts a new event.  The candidate events and their latest encounters are
+    read in two queries, and the events written in two batches."""
+    if not pairs:
+        return []
+    lo = min(t for _p, _s, t in pairs) - tol_s
+    hi = max(t for _p, _s, t in pairs) + tol_s
+    known: dict[tuple[str, str], list[tuple[int, float]]] = {}
+    for eid, p, s_, last in conn.execute(
+            "SELECT id, primary_id, secondary_id, last_tca_unix_s FROM events WHERE "
+            "last_tca_unix_s BETWEEN ? AND ? ORDER BY id", (lo, hi)):
+        known.setdefault((p, s_), []).append((eid, last))
+    next_id = int(conn.execute("SELECT COALESCE(MAX(id), 0) FROM events").fetchone()[0]) + 1
     used: set[int] = set()
-    out = []
-    for p, s, t in pairs:
-        rows = conn.execute(
-            "SELECT id, last_tca_unix_s FROM events WHERE primary_id=? AND secondary_id=? "
-            "AND last_tca_unix_s BETWEEN ? AND ?", (p, s, t - tol_s, t + tol_s)).fetchall()
-        rows = sorted((r for r in rows if r["id"] not in used), key=lambda r: abs(r["last_tca_unix_s"] - t))
-        if rows:
-            eid = rows[0]["id"]
-            prev = conn.execute("SELECT * FROM encounters WHERE event_id=? ORDER BY run_id DESC "
-                                "LIMIT 1", (eid,)).fetchone()
-            conn.execute("UPDATE events SET last_run_id=?, last_tca_unix_s=? WHERE id=?", (run_id, t, eid))
+    ids, updates, inserts = [], [], []
+    for p, s_, t in pairs:
+        near = [(abs(last - t), eid) for eid, last in known.get((p, s_), ())
+                if t - tol_s <= last <= t + tol_s and eid not in used]
+        if near:
+            eid = min(near)[1]
+            updates.append((run_id, t, eid))
         else:
-            eid = conn.execute("INSERT INTO events (primary_id, secondary_id, first_run_id, "
-                               "last_run_id, last_tca_unix_s) VALUES (?,?,?,?,?)",
-                               (p, s, run_id, run_id, t)).lastrowid
-            prev = None
+            eid, next_id = next_id, next_id + 1
+            inserts.append((eid, p, s_, run_id, run_id, t))
         used.add(eid)
-        out.append(Match(eid, prev))
-    return out
+        ids.append(eid)
+    prev = _latest_encounters(conn, [u[2] for u in updates])
+    conn.executemany("UPDATE events SET last_run_id=?, last_tca_unix_s=? WHERE id=?", updates)
+    conn.executemany("INSERT INTO events (id, primary_id, secondary_id, first_run_id, last_run_id, "
+                     "last_tca_unix_s) VALUES (?,?,?,?,?,?)", inserts)
+    return [Match(eid, *prev.get(eid, (None, []))) for eid in ids]
+
+
+def _latest_encounters(conn: sqlite3.Connection, event_ids: list[int]) -> dict[int, tuple]:
+    """Each event's encounter of its latest run (an event has one encounter per run), and its
+    (run id, miss) over every earlier run, oldest first."""
+    if not event_ids:
+        return {}
+    conn.execute("CREATE TEMP TABLE IF NOT EXISTS _match_ids (id INTEGER PRIMARY KEY)")
+    conn.execute("DELETE FROM _match_ids")
+    conn.executemany("INSERT OR IGNORE INTO _match_ids VALUES (?)", [(e,) for e in event_ids])
+    out: dict[int, sqlite3.Row] = {}
+    for row in conn.execute("SELECT e.event_id, e.run_id, e.miss_km, e.pc, e.tca_utc, e.tca_unix_s,"
+                            " e.attention, e.attention_rank, e.trend FROM encounters e JOIN _match_ids m"
+                            " ON e.event_id = m.id ORDER BY e.event_id, e.run_id DESC, e.id DESC"):
+        out.setdefault(row["event_id"], row)
+    hist: dict[int, list[tuple[int, float]]] = {}
+    for eid, rid, miss in conn.execute("SELECT e.event_id, e.run_id, e.miss_km FROM encounters e JOIN "
+                                       "_match_ids m ON e.event_id = m.id ORDER BY e.event_id, e.run_id"):
+        hist.setdefault(eid, []).append((rid, miss))
+    conn.execute("DELETE FROM _match_ids")
+    return {eid: (row, hist.get(eid, [])) for eid, row in out.items()}
 
 
 @dataclasses.dataclass
@@ -160,7 +193,9 @@ def run_diff(conn: sqlite3.Connection, run_id: int, name: str, window_start_unix
                         (name, run_id)).fetchone()
     d = Diff(prev["id"] if prev else None)
     cur = conn.execute("""
-        SELECT e.*, p.attention AS prev_attention, p.tca_unix_s AS prev_tca, p.miss_km AS prev_miss
+        SELECT e.event_id, e.primary_id, e.secondary_id, e.tca_utc, e.tca_unix_s, e.miss_km, e.pc,
+               e.attention, e.change,
+               p.attention AS prev_attention, p.tca_unix_s AS prev_tca, p.miss_km AS prev_miss
         FROM encounters e LEFT JOIN encounters p
           ON p.event_id = e.event_id AND p.run_id = ?
         WHERE e.run_id = ?""", (d.previous_run_id or -1, run_id)).fetchall()
@@ -177,7 +212,8 @@ def run_diff(conn: sqlite3.Connection, run_id: int, name: str, window_start_unix
             d.tca_shifts.append({**item, "shift_s": r["tca_unix_s"] - r["prev_tca"]})
     if d.previous_run_id is not None:
         for r in conn.execute("""
-            SELECT p.* FROM encounters p WHERE p.run_id = ? AND p.tca_unix_s >= ?
+            SELECT p.event_id, p.primary_id, p.secondary_id, p.tca_utc, p.miss_km, p.pc, p.attention
+            FROM encounters p WHERE p.run_id = ? AND p.tca_unix_s >= ?
               AND NOT EXISTS (SELECT 1 FROM encounters e WHERE e.run_id = ? AND e.event_id = p.event_id)
             """, (d.previous_run_id, window_start_unix_s, run_id)):
             d.gone.append({"event_id": r["event_id"], "primary": r["primary_id"],

@@ -93,7 +93,7 @@ def commit_run(store: Store, *, name: str, config_snapshot: dict, inputs_files: 
         for e, t, m in zip(encs, tcas, matches):
             rk = e.risk
             rank = LEVEL_RANK[rk["attention"]]
-            tr = event_trend(conn, m.event_id, e.miss_km, signature, m.prev, signatures)
+            tr = event_trend(m.history, e.miss_km, signature, m.prev, signatures)
             ch = change_of(m.prev, rank)
             data = e.to_json()
             data.update({"trend": tr, "change": ch, "event_id": m.event_id})
