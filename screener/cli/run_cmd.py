@@ -127,6 +127,20 @@ def cmd_run(args) -> int:
         for msg in out.degraded:
             print(f"screener: warning: {msg}", file=sys.stderr)
     try:
+        # alerts first: the run is committed, and an export that fails must not keep them back
+        told = ""
+        if cfg.alerts.rules and not args.no_alerts:
+            from ..alerts import alert_run
+            from ..pipeline.run import log_appender
+
+            try:
+                sent = alert_run(store, cfg, out.run_id, out.degraded, log=log_appender(out.log_path))
+                told = sent.summary()
+                failed = sent.failed
+            except Exception as exc:  # noqa: BLE001 - the run is committed; an alert bug must not lose it
+                told, failed = f"Alerts: not sent ({type(exc).__name__}: {exc})", 1
+            if args.quiet and failed:      # cron mails stderr: a failed alert is said
+                print(f"screener: warning: {told}", file=sys.stderr)
         exports = []
         if cfg.outputs.folder and not args.no_exports:
             from ..exports import export_run
@@ -145,15 +159,6 @@ def cmd_run(args) -> int:
         info = run_info(store, out.run_id)
         stored = run_encounters(store, out.run_id)       # levels from the best source
         only = received_only_events(store, thresholds_of(info), info.window_start_unix_s)
-        told = ""
-        if cfg.alerts.rules and not args.no_alerts:
-            from ..alerts import alert_run
-            from ..pipeline.run import log_appender
-
-            sent = alert_run(store, cfg, out.run_id, out.degraded, log=log_appender(out.log_path))
-            told = sent.summary()
-            if args.quiet and sent.failed:      # cron mails stderr: a failed alert is said
-                print(f"screener: warning: {told}", file=sys.stderr)
         if not args.quiet:
             from ..exports.report import received_lines
 

@@ -172,6 +172,10 @@ def render_html(run: dict, series, n_encounters: int, plotted: list, elsets: lis
     left = (f"<p>{n_watch - len(plotted)} more series at watch or above are in the table and the "
             f"JSON/CSV exports, without plots.</p>" if n_watch > len(plotted) else "")
     cum = cumulative_by_primary(series)
+    if not diff_text:        # an export of a stored run: the changes each encounter was stored with
+        ch = [m.get("change", "") for g in series for m in g.members]
+        diff_text = (f"encounters against the previous run of {run['name']}: "
+                     + ", ".join(f"{k} {ch.count(k)}" for k in ("new", "escalated", "de-escalated", "same")))
     return ("<!doctype html>\n<html lang='en'><head><meta charset='utf-8'>"
             f"<title>{_e(title)}</title><style>{CSS}</style></head><body>"
             f"<p class='caution'>{_e(CAUTION)}</p><h1>{_e(title)}</h1>"

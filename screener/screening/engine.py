@@ -42,7 +42,9 @@ FLEET_STEP_S = 240.0
 ALL_VS_ALL_STEP_S = 120.0
 FLOAT32_PAD_KM = 0.01        # single-precision rounding in the fleet sieve, generous
 INTERP_MARGIN_KM = 2.0        # added to the volume's bounding radius in both coarse stages
-KD_SUBSTEPS = 4               # spatial-index samples per grid interval (all-vs-all)
+KD_SUBSTEPS = 4               # spatial-index samples per grid interval (all-vs-all) ...
+KD_SUBSTEPS_SMALL = 2         # ... and for a task of fewer objects than KD_SMALL_OBJECTS, where
+KD_SMALL_OBJECTS = 15_000     # the index builds cost more than the pairs they save (measured)
 MAX_SECONDARIES_PER_TASK = 4000
 # Planned peak memory of one task, so that a task fits a 4 GB worker: an all-vs-all span holds
 # every object's states, so large catalogs get more, shorter spans.  Measured (DEVELOPERS.md):
@@ -170,7 +172,8 @@ def run_task(task: Task) -> TaskResult:
     brackets = []
     t_sieve = time.perf_counter()
     if task.all_vs_all:
-        trip = kd_candidates(r, v, usable, h, reach, KD_SUBSTEPS)
+        trip = kd_candidates(r, v, usable, h, reach,
+                             KD_SUBSTEPS if len(pop) >= KD_SMALL_OBJECTS else KD_SUBSTEPS_SMALL)
         stats["candidates"] = len(trip)
         brackets = brackets_from_candidates(t, r, v, trip[:, 0], trip[:, 1], trip[:, 2], reach, row_of)
     else:
