@@ -300,3 +300,34 @@ def test_starttls_required_refuses_a_relay_without_it(tmp_path, smtp_server):
     got = send_mail(relay, ["duty@larkspur.invalid"], "subject", "body")
     assert not got["ok"] and "does not offer STARTTLS" in got["detail"]
     assert handler.messages == []
+
+
+def test_tca_within_and_escalation_rules_decide_as_documented():
+    """The rules' triggers on hand-made subjects (the documented behaviour, no source beyond
+    the README): tca_within fires only for an act pass ahead within `hours`; escalation on a
+    level up, on Pc x pc_factor, and not on the same level and Pc."""
+    from screener.alerts.decide import held_back, triggered
+    from screener.alerts.subjects import Subject
+    from screener.config.alerts import AlertRule
+    from screener.store.alerts import Alerted
+
+    now = 1_000_000.0
+
+    def subject(level, pc, first_act_h, prev_level=None, prev_pc=None):
+        t = None if first_act_h is None else now + first_act_h * 3600.0
+        return Subject("1x2", "1", "P", "2", "S", level, "", "ours", pc, 0.1, "2026-12-03T00:00:00Z",
+                       t, t or now, t or now, 1, 7, prev_level, prev_pc)
+
+    close = AlertRule("close", "tca_within", command=["x"], hours=24.0)
+    assert triggered(close, subject("act", 1e-3, 5.0), now).startswith("act pass 5.0 h ahead")
+    assert triggered(close, subject("act", 1e-3, 30.0), now) is None
+    assert triggered(close, subject("act", 1e-3, -1.0), now) is None
+    assert triggered(close, subject("watch", 1e-5, None), now) is None
+    esc = AlertRule("esc", "escalation", command=["x"], pc_factor=10.0)
+    assert "level up: watch -> act" in triggered(esc, subject("act", 2e-4, 3.0, "watch", 5e-5), now)
+    assert "Pc x20" in triggered(esc, subject("act", 2e-3, 3.0, "act", 1e-4), now)
+    assert triggered(esc, subject("act", 2e-4, 3.0, "act", 1e-4), now) is None
+    assert triggered(esc, subject("routine", 1e-8, None), now) is None
+    told = Alerted(3, 1, "act", 1e-4, now + 3600.0)
+    assert held_back(esc, subject("act", 5e-4, 3.0), told) == (True, "")
+    assert held_back(esc, subject("act", 2e-3, 3.0), told)[0] is False

@@ -18,10 +18,9 @@ import json
 from .. import CAUTION
 from ..display import fmt_pc, fmt_speed, plural
 from ..risk.attention import LEVELS
-from ..risk.flags import legend_text
-from ..risk.series import CUMULATIVE_RULE, SERIES_PC_RULE, cumulative_by_primary
+from ..risk.series import CUMULATIVE_RULE, cumulative_by_primary
 from ..timeutil import parse_iso
-from .report import HEAD, TOP_N, _fleet, _rows
+from .report import HEAD, TOP_N, _fleet, _rows, run_facts
 
 PLOTTED_MAX = 30      # series at watch or above with plots (the rest are listed)
 
@@ -157,13 +156,7 @@ def render_html(run: dict, series, n_encounters: int, plotted: list, elsets: lis
     """plotted: [(series, history rows, received messages, svg)] for the series with plots."""
     now = now or dt.datetime.now(dt.timezone.utc)
     title = f"screener run {run['id']} - {run['name']}"
-    counts = {lv: sum(1 for g in series if LEVELS[g.level_rank] == lv) for lv in LEVELS}
-    facts = [f"made {run['started_utc']}; window {run['window_start_utc']} + {run['window_days']:g} d; "
-             f"{run['volume']}; {run['mode']}",
-             f"{run['n_primaries']} primaries, {run['n_secondaries']} secondaries, "
-             f"{plural(n_encounters, 'encounter')} in {len(series)} series",
-             "series by attention: " + ", ".join(f"{lv} {counts[lv]}" for lv in LEVELS),
-             SERIES_PC_RULE, "flags: " + legend_text()]
+    facts = run_facts(run, series, n_encounters)
     ranked = [g for g in series if g.level_rank <= 1] or series[:TOP_N]
     ranked = ranked + [g for g in series[:TOP_N] if g not in ranked]
     rows = "".join(f'<tr class="{r[1]}">' + "".join(f"<td>{_e(c)}</td>" for c in r) + "</tr>"

@@ -43,19 +43,24 @@ def _fleet(series) -> list[str]:
     return out
 
 
+def run_facts(run: dict, series, n_encounters: int) -> list[str]:
+    """The run's header lines, the same in the text and the HTML report."""
+    counts = {lv: sum(1 for g in series if LEVELS[g.level_rank] == lv) for lv in LEVELS}
+    return [f"made {run['started_utc']}; window {run['window_start_utc']} + {run['window_days']:g} d, "
+            f"{run['volume']}, {run['mode']}",
+            f"{run['n_primaries']} primaries, {run['n_secondaries']} secondaries, "
+            f"{plural(n_encounters, 'encounter')} in {len(series)} series",
+            "series by attention: " + ", ".join(f"{lv} {counts[lv]}" for lv in LEVELS),
+            SERIES_PC_RULE, "flags: " + legend_text()]
+
+
 def render_report(run: dict, series, n_encounters: int, diff_text: str = "",
                   now: dt.datetime | None = None, received_text: str = "") -> str:
     """The plain-text report (the HTML one: html_report.py).  received_text: what received
     CDMs add (received_lines), shown after the ranked table."""
     now = now or dt.datetime.now(dt.timezone.utc)
-    counts = {lv: sum(1 for g in series if LEVELS[g.level_rank] == lv) for lv in LEVELS}
     title = f"screener run {run['id']} - {run['name']}"
-    facts = [f"made {run['started_utc']}; window {run['window_start_utc']} + {run['window_days']:g} d, "
-             f"{run['volume']}, {run['mode']}",
-             f"{run['n_primaries']} primaries, {run['n_secondaries']} secondaries, "
-             f"{plural(n_encounters, 'encounter')} in {len(series)} series",
-             "series by attention: " + ", ".join(f"{lv} {counts[lv]}" for lv in LEVELS),
-             SERIES_PC_RULE, "flags: " + legend_text()]
+    facts = run_facts(run, series, n_encounters)
     if diff_text:
         facts += diff_text.splitlines()
     fleet = _fleet(series)
