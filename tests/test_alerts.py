@@ -331,3 +331,30 @@ def test_tca_within_and_escalation_rules_decide_as_documented():
     told = Alerted(3, 1, "act", 1e-4, now + 3600.0)
     assert held_back(esc, subject("act", 5e-4, 3.0), told) == (True, "")
     assert held_back(esc, subject("act", 2e-3, 3.0), told)[0] is False
+
+
+async def test_event_view_lists_the_alerts_about_its_pair(store, tmp_path):
+    """After an alert, the TUI's event view (Pilot, 80x24) says which rule told of the pair,
+    at which level, and that it was delivered."""
+    from screener.tui import make_app
+    from screener.tui.event_view import EventScreen
+
+    hook = tmp_path / "hook.py"
+    hook.write_text(HOOK)
+    base = tmp_path / "b.toml"
+    write_config(base)
+    (tmp_path / "c.toml").write_text(base.read_text() + "\n"
+                                     + rule("duty", "act", [sys.executable, str(hook), str(tmp_path / "k")]))
+    with Store(store) as st:
+        assert alert_run(st, load_config(str(tmp_path / "c.toml")), 2, []).sent == 1
+    app = make_app(store_path=store)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await pilot.pause()
+        await pilot.press("enter")
+        await pilot.pause()
+        assert isinstance(app.screen, EventScreen)
+        facts = str(app.screen.query_one("#event-facts").render())
+        d = app.screen.detail
+    assert d["attention"] == "act"
+    assert "alerts: 1 about this pair" in facts and "rule duty (act): act" in facts
+    assert "delivered" in facts

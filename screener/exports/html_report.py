@@ -1,8 +1,8 @@
 """The HTML report of a run: one self-contained file (inline CSS and SVG, no external assets),
 readable offline and printable, with the caution at the top and the bottom.
 
-Sections: the run (window, inputs with their element-set counts and ages, what changed since
-the last run), the ranked series, received CDMs, and for each series at watch or above (its
+Sections: the run (window, input files with the count and ages of the element sets screened
+from each, what changed since the last run), the ranked series, received CDMs, and for each series at watch or above (its
 worst pass) the geometry, Pc by method, covariance sources, Pc sensitivity and one SVG of its
 plots.  Every figure of an event is written as <span class="fig" data-enc=ID data-key=KEY
 data-value=JSON>text</span>: the value is the same as encounters.json's (KEY may be dotted,
@@ -19,7 +19,6 @@ from .. import CAUTION
 from ..display import fmt_pc, fmt_speed, plural
 from ..risk.attention import LEVELS
 from ..risk.series import CUMULATIVE_RULE, cumulative_by_primary
-from ..timeutil import parse_iso
 from .report import HEAD, TOP_N, _fleet, _rows, run_facts
 
 PLOTTED_MAX = 30      # series at watch or above with plots (the rest are listed)
@@ -77,19 +76,18 @@ def fig(e: dict, key: str) -> str:
             f'data-value="{html.escape(json.dumps(v), quote=True)}">{_e(FORMATS[key](v))}</span>')
 
 
-def _inputs(run: dict, elsets: list[dict]) -> str:
-    by: dict[str, list[float]] = {}
-    start = parse_iso(run["window_start_utc"])
-    for r in elsets:
-        by.setdefault(r["source"], []).append((start - parse_iso(r["epoch_utc"])).total_seconds() / 86400.0)
+def _inputs(run: dict) -> str:
     rows = []
     for f in run.get("inputs", []):
-        ages = by.get(f["path"], [])
-        age = (f"{len(ages)} stored, age {min(ages):.1f} to {max(ages):.1f} d" if ages else "-")
+        if f.get("elsets"):
+            age = f"{f['elsets']:,}, age {f['age_min_days']:.1f} to {f['age_max_days']:.1f} d"
+        else:
+            # 0: an ephemeris, or every set superseded by a newer one; "-": a run stored before
+            age = "0 (an ephemeris, or all superseded)" if "elsets" in f else "-"
         rows.append(f"<tr><td>{_e(f['path'])}</td><td>{_e(f['role'])}</td><td>{f['bytes']:,}</td>"
                     f"<td><code>{_e(f['sha256'][:16])}</code></td><td>{_e(age)}</td></tr>")
     return ("<table><tr><th>input</th><th>role</th><th>bytes</th><th>SHA-256 (start)</th>"
-            "<th>element sets kept with the run (age at the window start)</th></tr>"
+            "<th>element sets screened (age at the window start; negative: epoch after it)</th></tr>"
             + "".join(rows) + "</table>")
 
 
@@ -151,7 +149,7 @@ def value_at_or_none(e: dict, key: str):
         return None
 
 
-def render_html(run: dict, series, n_encounters: int, plotted: list, elsets: list[dict],
+def render_html(run: dict, series, n_encounters: int, plotted: list,
                 diff_text: str = "", received_text: str = "", now: dt.datetime | None = None) -> str:
     """plotted: [(series, history rows, received messages, svg)] for the series with plots."""
     now = now or dt.datetime.now(dt.timezone.utc)
@@ -173,7 +171,7 @@ def render_html(run: dict, series, n_encounters: int, plotted: list, elsets: lis
             f"<title>{_e(title)}</title><style>{CSS}</style></head><body>"
             f"<p class='caution'>{_e(CAUTION)}</p><h1>{_e(title)}</h1>"
             "<section id='run'><h2>The run</h2>" + "".join(f"<p>{_e(f)}</p>" for f in facts)
-            + _inputs(run, elsets)
+            + _inputs(run)
             + ("<h3>Since the last run</h3><ul>" + "".join(f"<li>{_e(x.strip())}</li>"
                                                            for x in diff_text.splitlines() if x.strip())
                + "</ul>" if diff_text else "")

@@ -213,10 +213,8 @@ def html_report(store, info, series, encs, plotted, diff_text: str, received_tex
 
     run = {**dataclasses.asdict(info), "inputs": json.loads(store.conn.execute(
         "SELECT inputs_json FROM runs WHERE id = ?", (info.id,)).fetchone()[0])}
-    elsets = [dict(r) for r in store.conn.execute(
-        "SELECT source, epoch_utc FROM elsets WHERE run_id = ?", (info.id,))]
     parts = [(g, g.worst["history"], g.worst.get("received") or [],
               event_svg(g.worst, g.worst["history"], g.worst.get("received") or [],
                         g.worst.get("pc_sensitivity"), f"ev{k}"))
              for k, g in enumerate(plotted, start=1)]
-    return render_html(run, series, len(encs), parts, elsets, diff_text, received_text)
+    return render_html(run, series, len(encs), parts, diff_text, received_text)

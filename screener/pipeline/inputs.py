@@ -27,7 +27,7 @@ class Inputs:
     primaries: list[ElementSet]
     oems: list[Oem]
     history: dict[str, list[ElementSet]]
-    files: list[dict]                     # {"path", "sha256", "bytes", "role"}
+    files: list[dict]                     # {"path", "sha256", "bytes", "role", "elsets", ages}
     bad_records: int = 0
     ids: dict = dataclasses.field(default_factory=dict)   # object id -> identity.Identity
 
@@ -131,4 +131,18 @@ def load_inputs(cfg: Config, jd0: float, fr0: float, warn: Warn) -> Inputs:
         if rep:
             history.update(rep.history)
     bad = sum(len(r.errors) for r in (cat_rep, p_rep) if r)
+    file_ages(files, primaries + catalog, jd0, fr0)
     return Inputs(catalog, primaries, oems, history, files, bad, ids)
+
+
+def file_ages(files: list[dict], records, jd0: float, fr0: float) -> None:
+    """Each input file's count of element sets screened from it ("elsets") and their ages at
+    the window start ("age_min_days", "age_max_days"), kept with the run (the report's inputs)."""
+    ages: dict[str, list[float]] = {}
+    for r in records:
+        ages.setdefault(os.path.abspath(r.source.path), []).append(r.age_days_at(jd0, fr0))
+    for f in files:
+        got = ages.get(f["path"], [])
+        f["elsets"] = len(got)
+        if got:
+            f["age_min_days"], f["age_max_days"] = min(got), max(got)

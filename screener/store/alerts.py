@@ -73,3 +73,13 @@ def alerts_of_run(store: Store, run_id: int) -> list[dict]:
     rows = store.conn.execute("SELECT * FROM alerts WHERE run_id = ? ORDER BY id", (run_id,)).fetchall()
     return [{**dict(r), "payload": json.loads(r["payload_json"]),
              "results": json.loads(r["results_json"])} for r in rows]
+
+
+def alerts_for_subject(store: Store, subject: str) -> list[dict]:
+    """Every alert that told of one series (oldest first): when, which rule and trigger, the
+    level and Pc it told, and whether it reached anyone."""
+    rows = store.conn.execute(
+        "SELECT a.id, a.run_id, a.rule, a.trigger, a.created_utc, a.delivered, s.level, s.pc "
+        "FROM alert_subjects s JOIN alerts a ON a.id = s.alert_id WHERE s.subject = ? "
+        "ORDER BY a.id", (subject,)).fetchall()
+    return [dict(r) for r in rows]

@@ -115,8 +115,20 @@ def received_text(msgs: list[dict], comparison: dict | None = None) -> list[str]
     return out + comparison_text(comparison)
 
 
+def alerts_text(alerts: list[dict]) -> list[str]:
+    """The alerts that told of this pair (screener.alerts; newest three)."""
+    if not alerts:
+        return ["alerts: none sent for this pair"]
+    out = [f"alerts: {len(alerts)} about this pair"]
+    for a in alerts[-3:]:
+        out.append(f"  {a['created_utc'][5:16].replace('T', ' ')}Z run {a['run_id']} rule {a['rule']} "
+                   f"({a['trigger']}): {a['level']}, Pc {fmt_pc(a['pc'])}, "
+                   + ("delivered" if a["delivered"] else "NOT delivered (tried again next run)"))
+    return out
+
+
 def facts_text(d: dict, now_unix_s: float, tca_unix_s: float, members=(), trades=(),
-               received=(), best=None, comparison=None) -> str:
+               received=(), best=None, comparison=None, alerts=()) -> str:
     """best: the level from the best covariance source (risk.attention.best_source), where
     received CDMs may have set it."""
     pc = d.get("pc") or 0.0
@@ -179,6 +191,7 @@ def facts_text(d: dict, now_unix_s: float, tca_unix_s: float, members=(), trades
     lines.append(f"trend {d.get('trend', '?')}, change since the previous run: {d.get('change', '?')}")
     lines += received_text(list(received), comparison)
     lines += trades_text(list(trades))
+    lines += alerts_text(list(alerts))
     return "\n".join(lines)
 
 
@@ -251,6 +264,8 @@ class EventScreen(EventLayout):
         self.query_one("#event-body").focus()
 
     def _facts(self) -> None:
+        from ..risk.series import series_key
+        from ..store.alerts import alerts_for_subject
         from ..store.trades import trades_for_event
 
         store = self.app.open_store()
@@ -258,7 +273,9 @@ class EventScreen(EventLayout):
         self.query_one("#event-facts", Static).update(
             facts_text(d, self.app.now_unix_s(), self.tca_unix_s, self.members,
                        trades_for_event(store, d["event_id"]) if store else (),
-                       self.received, self.best, self.comparison))
+                       self.received, self.best, self.comparison,
+                       alerts_for_subject(store, series_key(d["primary"], d["secondary"]))
+                       if store else ()))
 
     def on_screen_resume(self) -> None:
         if self.detail:          # back from the trade screen: show the trade just kept
