@@ -100,3 +100,14 @@ def alive(pid) -> bool:
             return fh.read().rsplit(")", 1)[1].split()[0] != "Z"
     except FileNotFoundError:
         return False
+
+
+async def open_top_event(app, pilot):
+    """Pilot: Enter on the list's top row; returns the event screen that opened."""
+    from screener.tui.event_view import EventScreen
+
+    await pilot.pause()
+    await pilot.press("enter")
+    await pilot.pause()
+    assert isinstance(app.screen, EventScreen)
+    return app.screen

@@ -337,7 +337,8 @@ async def test_event_view_lists_the_alerts_about_its_pair(store, tmp_path):
     """After an alert, the TUI's event view (Pilot, 80x24) says which rule told of the pair,
     at which level, and that it was delivered."""
     from screener.tui import make_app
-    from screener.tui.event_view import EventScreen
+
+    from .nightly import open_top_event
 
     hook = tmp_path / "hook.py"
     hook.write_text(HOOK)
@@ -349,12 +350,9 @@ async def test_event_view_lists_the_alerts_about_its_pair(store, tmp_path):
         assert alert_run(st, load_config(str(tmp_path / "c.toml")), 2, []).sent == 1
     app = make_app(store_path=store)
     async with app.run_test(size=(80, 24)) as pilot:
-        await pilot.pause()
-        await pilot.press("enter")
-        await pilot.pause()
-        assert isinstance(app.screen, EventScreen)
-        facts = str(app.screen.query_one("#event-facts").render())
-        d = app.screen.detail
+        screen = await open_top_event(app, pilot)
+        facts = str(screen.query_one("#event-facts").render())
+        d = screen.detail
     assert d["attention"] == "act"
     assert "alerts: 1 about this pair" in facts and "rule duty (act): act" in facts
     assert "delivered" in facts

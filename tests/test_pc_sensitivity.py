@@ -80,14 +80,12 @@ async def test_event_view_plots_the_sensitivity_at_80x24(store):
     from screener.store import Store
     from screener.store.queries import encounter_detail
     from screener.tui import make_app
-    from screener.tui.event_view import EventScreen
+
+    from .nightly import open_top_event
 
     app = make_app(store_path=store)
     async with app.run_test(size=(80, 24)) as pilot:
-        await pilot.pause()
-        await pilot.press("enter")
-        await pilot.pause()
-        assert isinstance(app.screen, EventScreen)
+        await open_top_event(app, pilot)
         await pilot.press("5")
         await pilot.pause()
         plot = str(app.screen.query_one("#event-plot").render())
