@@ -33,6 +33,11 @@ class AlertsOutcome:
         return "\n".join([head] + ["  " + x for x in self.lines])
 
 
+def channel_line(r: dict) -> str:
+    """One channel's result as the summary, the log and alert-test print it."""
+    return f"{r['channel']}: {'ok' if r['ok'] else 'FAILED'}: {r['detail']}"
+
+
 def deliver(rule, relay, p: dict) -> list[dict]:
     """The alert `p` through every channel of its rule (relay: the [alerts.mail] relay)."""
     out = []
@@ -48,9 +53,28 @@ def _send(cfg: Config, alert: Alert, run: dict | None, now: dt.datetime) -> tupl
     return p, deliver(alert.rule, cfg.alerts.mail, p)
 
 
-def run_facts(store, info) -> dict:
+def _tally(got: AlertsOutcome, label: str, results: list[dict], log=None) -> None:
+    """Count one alert as sent (some channel reached) or failed, with a line per channel."""
+    ok = any(r["ok"] for r in results)
+    got.sent += ok
+    got.failed += not ok
+    for r in results:
+        line = f"{label}: {channel_line(r)}"
+        got.lines.append(line)
+        if log:
+            log(line)
+
+
+def run_json(store, info) -> dict:
+    """The alert's `run` object for a stored run."""
     return {"id": info.id, "name": info.name, "window_start": info.window_start_utc,
             "window_days": info.window_days, "store": store.path, "log": info.log_path}
+
+
+def unstored_run_json(cfg: Config, window_start: str, store=None) -> dict:
+    """The alert's `run` object where no run was stored (a failed run, a test alert)."""
+    return {"id": None, "name": cfg.name, "window_start": window_start,
+            "window_days": cfg.window_days, "store": getattr(store, "path", None), "log": None}
 
 
 def reference_time(cfg: Config, info) -> dt.datetime:
@@ -80,19 +104,12 @@ def alert_run(store, cfg: Config, run_id: int, problems: list[str],
     open_from = info.window_start_unix_s - cfg.event_tca_tolerance_s
     alerts, got.held = decide(cfg.alerts.rules, subjects, problems, now.timestamp(),
                               lambda r, k, t: last_alerted(store, r, k, t), open_from)
-    run = run_facts(store, info)
+    run = run_json(store, info)
     for alert in alerts:
         p, results = _send(cfg, alert, run, now)
-        ok = any(r["ok"] for r in results)
-        got.sent += ok
-        got.failed += not ok
         what = (plural(len(alert.items), "event") if alert.items else
                 plural(len(alert.problems), "problem"))
-        for r in results:
-            line = f"{alert.rule.name} ({what}): {r['channel']}: {'ok' if r['ok'] else 'FAILED'}: {r['detail']}"
-            got.lines.append(line)
-            if log:
-                log(line)
+        _tally(got, f"{alert.rule.name} ({what})", results, log)
         try:
             save_alert(store, run_id, alert.rule.name, alert.trigger, message.subject_line(p), p,
                        results, [(it.subject.key, it.subject.level, it.subject.pc,
@@ -109,21 +126,15 @@ def alert_failure(cfg: Config, error: str, store=None, now: dt.datetime | None =
     now = now or dt.datetime.now(dt.timezone.utc)
     for rule in rules:
         alert = Alert(rule, "run_problem", problems=[f"the run failed: {error}"])
-        p, results = _send(cfg, alert, {"id": None, "name": cfg.name, "window_start": cfg.start,
-                                        "window_days": cfg.window_days,
-                                        "store": getattr(store, "path", None), "log": None}, now)
-        ok = any(r["ok"] for r in results)
-        got.sent += ok
-        got.failed += not ok
-        got.lines += [f"{rule.name}: {r['channel']}: {'ok' if r['ok'] else 'FAILED'}: {r['detail']}"
-                      for r in results]
+        p, results = _send(cfg, alert, unstored_run_json(cfg, cfg.start, store), now)
+        _tally(got, rule.name, results)
         if store is not None:
             try:
                 from ..store.alerts import save_alert
 
                 save_alert(store, None, rule.name, "run_problem", message.subject_line(p), p, results, [])
-            except ScreenerError:
-                pass
+            except ScreenerError as exc:        # the store may be what failed the run
+                got.lines.append(str(exc))
     return got
 
 
@@ -132,8 +143,6 @@ def alert_test(cfg: Config, now: dt.datetime | None = None) -> list[tuple[str, d
     now = now or dt.datetime.now(dt.timezone.utc)
     out = []
     for rule in cfg.alerts.rules:
-        alert = Alert(rule, "test")
-        p, results = _send(cfg, alert, {"id": None, "name": cfg.name, "window_start": iso_z(now, 0),
-                                        "window_days": cfg.window_days, "store": None, "log": None}, now)
+        _p, results = _send(cfg, Alert(rule, "test"), unstored_run_json(cfg, iso_z(now, 0)), now)
         out += [(rule.name, r) for r in results]
     return out

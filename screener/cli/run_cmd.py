@@ -214,6 +214,7 @@ def cmd_export(args) -> int:
 
 def cmd_alert_test(args) -> int:
     from ..alerts import alert_test
+    from ..alerts.dispatch import channel_line
     from ..config import load_config
     from .main import EXIT_ALERT_FAILED, EXIT_OK
 
@@ -222,7 +223,7 @@ def cmd_alert_test(args) -> int:
         raise ScreenerError(f"{args.config}: no [[alerts.rule]] to test")
     got = alert_test(cfg)
     for name, r in got:
-        print(f"{name}: {r['channel']}: {'ok' if r['ok'] else 'FAILED'}: {r['detail']}")
+        print(f"{name}: {channel_line(r)}")
     bad = sum(1 for _, r in got if not r["ok"])
     if bad:
         print(f"screener: {bad} of {len(got)} alert channels failed", file=sys.stderr)

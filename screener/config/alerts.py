@@ -41,7 +41,6 @@ class MailRelay:
     password_file: str | None = None
     starttls: str = "when_offered"
     timeout_s: float = DEFAULT_MAIL_TIMEOUT_S
-    where: str = ""                       # "file:line" of [alerts.mail], for messages
 
 
 @dataclasses.dataclass
@@ -54,7 +53,6 @@ class AlertRule:
     hours: float = 24.0                   # tca_within: TCA closer than this (from the run's time)
     pc_factor: float = DEFAULT_PC_FACTOR  # escalation by Pc, and re-alerting an alerted event
     cwd: str = "."                        # the hook's working folder (the configuration's)
-    where: str = ""
 
 
 @dataclasses.dataclass
@@ -104,8 +102,7 @@ def _mail(rd, raw, base: str) -> MailRelay:
                       password_env=rd.string(t, keys + ("password_env",), None),
                       starttls=rd.string(t, keys + ("starttls",), "when_offered", STARTTLS),
                       timeout_s=rd.num(t, keys + ("timeout_s",), DEFAULT_MAIL_TIMEOUT_S,
-                                       positive=True, hi=600.0),
-                      where=rd.where(keys))
+                                       positive=True, hi=600.0))
     pf = rd.string(t, keys + ("password_file",), None)
     if pf:
         relay.password_file = os.path.normpath(os.path.join(base, os.path.expanduser(pf)))
@@ -126,7 +123,7 @@ def _rule(rd, raw, keys: tuple[str, ...], base: str, mail: MailRelay | None) -> 
                                       positive=True, hi=3600.0),
                      hours=rd.num(t, keys + ("hours",), 24.0, positive=True, hi=24.0 * 60),
                      pc_factor=rd.num(t, keys + ("pc_factor",), DEFAULT_PC_FACTOR, lo=1.0),
-                     cwd=base, where=rd.where(keys))
+                     cwd=base)
     if "command" in t:
         cmd = t["command"]
         if isinstance(cmd, str):

@@ -213,8 +213,10 @@ def html_report(store, info, series, encs, plotted, diff_text: str, received_tex
 
     run = {**dataclasses.asdict(info), "inputs": json.loads(store.conn.execute(
         "SELECT inputs_json FROM runs WHERE id = ?", (info.id,)).fetchone()[0])}
-    parts = [(g, g.worst["history"], g.worst.get("received") or [],
-              event_svg(g.worst, g.worst["history"], g.worst.get("received") or [],
-                        g.worst.get("pc_sensitivity"), f"ev{k}"))
-             for k, g in enumerate(plotted, start=1)]
+    parts = []
+    for k, g in enumerate(plotted, start=1):
+        e = g.worst
+        got = e.get("received") or []
+        parts.append((g, e["history"], got,
+                      event_svg(e, e["history"], got, e.get("pc_sensitivity"), f"ev{k}")))
     return render_html(run, series, len(encs), parts, diff_text, received_text)

@@ -57,49 +57,53 @@ class Osculating:
     inclination_deg: float
 
 
-def osculating(r_km, v_km_s, mu_km3_s2: float | None = None,
-               earth_radius_km: float | None = None) -> Osculating:
-    """From a state: a from the vis-viva energy, e from the eccentricity vector, the period from
-    Kepler's third law in Newton's form (IERS mu and WGS-84 radius by default)."""
+def _two_body_many(r_km, v_km_s, mu: float):
+    """(a, e, h) of many states, (n, 3) arrays: a from the vis-viva energy (<= 0 or inf
+    when unbound), e from the eccentricity vector, h = r x v."""
     import numpy as np
 
-    from ..constants import MU_EARTH_KM3_S2, RE_WGS84_KM
-
-    mu = MU_EARTH_KM3_S2 if mu_km3_s2 is None else mu_km3_s2
-    re = RE_WGS84_KM if earth_radius_km is None else earth_radius_km
-    r, v = np.asarray(r_km, float), np.asarray(v_km_s, float)
-    rn, vn = float(np.linalg.norm(r)), float(np.linalg.norm(v))
-    h = np.cross(r, v)
-    e = float(np.linalg.norm(np.cross(v, h) / mu - r / rn))
-    inc = math.degrees(math.acos(max(-1.0, min(1.0, h[2] / np.linalg.norm(h)))))
-    a = 1.0 / (2.0 / rn - vn * vn / mu)
-    if a <= 0:
-        return Osculating(None, e, inc)
-    rp, ra = a * (1.0 - e), a * (1.0 + e)
-    return Osculating(OrbitSize(a, period_s(a, mu), rp, ra, rp - re, ra - re), e, inc)
-
-
-def regimes_many(r_km, v_km_s, mu_km3_s2: float | None = None,
-                 earth_radius_km: float | None = None) -> list[str]:
-    """The regime (OrbitSize.regime) of the osculating orbit of each of many states, (n, 3)
-    arrays; an unbound state counts as HEO.  The same formulas as osculating(), in arrays."""
-    import numpy as np
-
-    from ..constants import MU_EARTH_KM3_S2, RE_WGS84_KM
-
-    mu = MU_EARTH_KM3_S2 if mu_km3_s2 is None else mu_km3_s2
-    re = RE_WGS84_KM if earth_radius_km is None else earth_radius_km
     r, v = np.asarray(r_km, float).reshape(-1, 3), np.asarray(v_km_s, float).reshape(-1, 3)
     rn, vn = np.linalg.norm(r, axis=1), np.linalg.norm(v, axis=1)
     h = np.cross(r, v)
     e = np.linalg.norm(np.cross(v, h) / mu - r / rn[:, None], axis=1)
     with np.errstate(divide="ignore"):
         a = 1.0 / (2.0 / rn - vn * vn / mu)
+    return a, e, h
+
+
+def _size(a: float, e: float, mu: float, re: float) -> OrbitSize | None:
+    if a <= 0:
+        return None
+    rp, ra = a * (1.0 - e), a * (1.0 + e)
+    return OrbitSize(a, period_s(a, mu), rp, ra, rp - re, ra - re)
+
+
+def _mu_re(mu_km3_s2: float | None, earth_radius_km: float | None) -> tuple[float, float]:
+    from ..constants import MU_EARTH_KM3_S2, RE_WGS84_KM
+
+    return (MU_EARTH_KM3_S2 if mu_km3_s2 is None else mu_km3_s2,
+            RE_WGS84_KM if earth_radius_km is None else earth_radius_km)
+
+
+def osculating(r_km, v_km_s, mu_km3_s2: float | None = None,
+               earth_radius_km: float | None = None) -> Osculating:
+    """From a state: a from the vis-viva energy, e from the eccentricity vector, the period from
+    Kepler's third law in Newton's form (IERS mu and WGS-84 radius by default)."""
+    mu, re = _mu_re(mu_km3_s2, earth_radius_km)
+    a, e, h = _two_body_many(r_km, v_km_s, mu)
+    hz = float(h[0, 2]) / math.sqrt(float(h[0] @ h[0]))
+    inc = math.degrees(math.acos(max(-1.0, min(1.0, hz))))
+    return Osculating(_size(float(a[0]), float(e[0]), mu, re), float(e[0]), inc)
+
+
+def regimes_many(r_km, v_km_s, mu_km3_s2: float | None = None,
+                 earth_radius_km: float | None = None) -> list[str]:
+    """The regime (OrbitSize.regime) of the osculating orbit of each of many states, (n, 3)
+    arrays; an unbound state counts as HEO."""
+    mu, re = _mu_re(mu_km3_s2, earth_radius_km)
+    a, e, _h = _two_body_many(r_km, v_km_s, mu)
     out = []
     for ak, ek in zip(a.tolist(), e.tolist()):
-        if ak <= 0:
-            out.append("HEO")
-            continue
-        rp, ra = ak * (1.0 - ek), ak * (1.0 + ek)
-        out.append(OrbitSize(ak, period_s(ak, mu), rp, ra, rp - re, ra - re).regime)
+        size = _size(ak, ek, mu, re)
+        out.append(size.regime if size is not None else "HEO")
     return out

@@ -25,16 +25,9 @@ SLOW_PASS_KM_S = 0.1
 ASSUMED_LABEL = "assumed covariance"
 
 
-def _regime(r_km, v_km_s) -> str:
-    """Regime (OrbitSize.regime) of the osculating orbit at TCA; unbound states count as HEO."""
-    from ..propagation.orbit import osculating
-
-    size = osculating(r_km, v_km_s).size
-    return size.regime if size is not None else "HEO"
-
-
 def _regimes(encounters: Sequence[Encounter]) -> list[str]:
-    """_regime of the primary and the secondary of every encounter (interleaved), at once."""
+    """The regime (OrbitSize.regime) of the osculating orbit at TCA of the primary and the
+    secondary of every encounter, interleaved; unbound states count as HEO."""
     from ..propagation.orbit import regimes_many
 
     if not encounters:

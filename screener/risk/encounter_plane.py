@@ -20,47 +20,37 @@ class PlaneGeometry:
 
 def plane_basis(rho_km: np.ndarray, w_km_s: np.ndarray) -> np.ndarray:
     """Rows: x = miss direction (rho with its along-w part removed), y = w_hat x x."""
-    wh = w_km_s / np.linalg.norm(w_km_s)
-    rp = rho_km - (rho_km @ wh) * wh
-    n = np.linalg.norm(rp)
-    x = rp / n if n > 0 else np.cross(wh, [0.0, 0.0, 1.0]) / np.linalg.norm(np.cross(wh, [0.0, 0.0, 1.0]))
-    y = np.cross(wh, x)
-    return np.stack([x, y])
+    return plane_basis_many(np.asarray(rho_km, float)[None], np.asarray(w_km_s, float)[None])[0]
 
 
 def project(rho_km, w_km_s, cov_combined_km2) -> PlaneGeometry:
     """Combined position covariance (3x3, km^2, inertial) -> principal axes in the plane.
     The two objects' errors are taken as uncorrelated, so the combined covariance is the sum."""
-    B = plane_basis(np.asarray(rho_km, float), np.asarray(w_km_s, float))
-    c2 = B @ np.asarray(cov_combined_km2, float) @ B.T * 1e6
-    miss2 = B @ np.asarray(rho_km, float) * 1e3
-    vals, vecs = np.linalg.eigh(c2)
-    vals = np.maximum(vals, 1e-12)
-    m = vecs.T @ miss2
-    return PlaneGeometry(float(m[0]), float(m[1]), float(np.sqrt(vals[0])), float(np.sqrt(vals[1])),
-                         float(np.linalg.norm(miss2)), c2, B)
+    return project_many(np.asarray(rho_km, float)[None], np.asarray(w_km_s, float)[None],
+                        np.asarray(cov_combined_km2, float)[None])[0]
 
 
 def ric_to_inertial_cov(cov_ric: np.ndarray, r_km, v_km_s) -> np.ndarray:
-    from ..screening.ric import ric_basis
-
-    Bm = ric_basis(np.asarray(r_km, float), np.asarray(v_km_s, float))
-    return Bm.T @ np.asarray(cov_ric, float) @ Bm
+    return ric_to_inertial_cov_many(np.asarray(cov_ric, float)[None], np.asarray(r_km, float)[None],
+                                    np.asarray(v_km_s, float)[None])[0]
 
 
 def plane_basis_many(rho_km: np.ndarray, w_km_s: np.ndarray) -> np.ndarray:
-    """plane_basis for (n, 3) arrays: (n, 2, 3), the same rule row by row."""
+    """plane_basis for (n, 3) arrays: (n, 2, 3).  Where rho has no part across w, x is taken
+    along w_hat x z instead."""
     wh = w_km_s / np.linalg.norm(w_km_s, axis=1, keepdims=True)
     rp = rho_km - np.einsum("ni,ni->n", rho_km, wh)[:, None] * wh
     n = np.linalg.norm(rp, axis=1)
     alt = np.cross(wh, np.array([0.0, 0.0, 1.0]))
-    alt /= np.linalg.norm(alt, axis=1, keepdims=True)
+    with np.errstate(invalid="ignore", divide="ignore"):     # used only where n == 0
+        alt /= np.linalg.norm(alt, axis=1, keepdims=True)
     x = np.where((n > 0)[:, None], rp / np.where(n > 0, n, 1.0)[:, None], alt)
     return np.stack([x, np.cross(wh, x)], axis=1)
 
 
 def project_many(rho_km: np.ndarray, w_km_s: np.ndarray, cov_combined_km2: np.ndarray) -> list[PlaneGeometry]:
-    """project() for many encounters at once: rho, w (n, 3) and combined covariances (n, 3, 3)."""
+    """project() for many encounters at once: rho, w (n, 3) and combined covariances (n, 3, 3)
+    (km, km/s, km^2); plane figures in metres."""
     B = plane_basis_many(rho_km, w_km_s)
     c2 = np.einsum("nij,njk,nlk->nil", B, cov_combined_km2, B) * 1e6
     miss2 = np.einsum("nij,nj->ni", B, rho_km) * 1e3

@@ -12,9 +12,11 @@ from scipy.spatial import cKDTree
 
 from ..propagation.ephemeris import hermite_cubic
 
-# Relative acceleration bound between two objects, km/s^2: twice surface gravity (both
-# accelerations at most ~9.8 m/s^2 and opposite).  Loose, cheap, safe.
-ACCEL_BOUND_KM_S2 = 2.0 * 9.81e-3
+# Any object's acceleration is at most g (surface gravity; less everywhere above the surface),
+# so its speed over an interval is at most the larger end speed plus g h/2, and the relative
+# acceleration of two objects at most 2 g (both opposite).  Loose, cheap, safe.
+G_KM_S2 = 9.81e-3
+ACCEL_BOUND_KM_S2 = 2.0 * G_KM_S2
 
 
 def fleet_candidates(rp: np.ndarray, vp: np.ndarray, rs: np.ndarray, vs: np.ndarray,
@@ -54,10 +56,6 @@ def _linear_pass(pos: np.ndarray, vel: np.ndarray, pairs: np.ndarray, dt_s: floa
     return d <= reach_km + margin
 
 
-# Any object's speed changes by at most g (surface gravity, 9.81e-3 km/s^2; less everywhere
-# above the surface) times the time elapsed: its speed over an interval is at most the larger
-# end speed plus g h/2.
-G_KM_S2 = 9.81e-3
 # Objects whose speed bound over an interval is at most this (every circular orbit above about
 # 150 km, MEO, GEO) are paired among themselves with a radius for two such speeds; the few
 # faster ones (eccentric orbits near perigee) get their own, wider query against all.

@@ -69,12 +69,6 @@ def save_alert(store: Store, run_id: int | None, rule: str, trigger: str, subjec
     return aid
 
 
-def alerts_of_run(store: Store, run_id: int) -> list[dict]:
-    rows = store.conn.execute("SELECT * FROM alerts WHERE run_id = ? ORDER BY id", (run_id,)).fetchall()
-    return [{**dict(r), "payload": json.loads(r["payload_json"]),
-             "results": json.loads(r["results_json"])} for r in rows]
-
-
 def alerts_for_subject(store: Store, subject: str) -> list[dict]:
     """Every alert that told of one series (oldest first): when, which rule and trigger, the
     level and Pc it told, and whether it reached anyone."""

@@ -25,7 +25,8 @@ from .model import fmt_ago, summary_line
 from .plots import history_lines, plane_plot, range_plot, received_plot, sensitivity_plot
 from .widgets import CautionBar
 
-PLOTS = ("range", "plane", "history", "received")
+PLOTS = ("range", "plane", "history", "received", "sensitivity")
+NOT_YET = object()
 
 
 def _orbit_line(state) -> str:
@@ -239,6 +240,7 @@ class EventScreen(EventLayout):
         self.best = None
         self.comparison: dict | None = None
         self.tca_unix_s = 0.0
+        self._sens = NOT_YET          # Pc sensitivity curves, computed when plot 5 is first shown
 
     def on_mount(self) -> None:
         store = self.app.open_store()
@@ -306,13 +308,19 @@ class EventScreen(EventLayout):
         elif self.plot == "received":
             lines = received_plot(self.received, cols, rows)
         elif self.plot == "sensitivity":
-            from ..risk.sensitivity import of_encounter
-
-            lines = sensitivity_plot(of_encounter(d), cols, rows + 4)
+            lines = sensitivity_plot(self._sensitivity(), cols, rows + 4)
         else:
             lines = history_lines(self.history, cols, rows)
         keys = "   1 range 2 plane 3 history 4 CDMs 5 sensitivity"
         self.query_one("#event-plot", Static).update("\n".join([f"plot: {self.plot}{keys}"] + lines))
+
+    def _sensitivity(self):
+        """The event's Pc sensitivity curves, computed on first use (redraws reuse them)."""
+        if self._sens is NOT_YET:
+            from ..risk.sensitivity import of_encounter
+
+            self._sens = of_encounter(self.detail)
+        return self._sens
 
     def action_plot(self, which: str) -> None:
         self.plot = which
