@@ -190,6 +190,23 @@ class Population:
             r[pos], v[pos], code[pos] = self.oems[rows[pos] - ns].states(jd0, fr0, t_s)
         return r, v, code
 
+    def states_at(self, rows, jd0: float, fr0: float, t_s):
+        """Each of `rows` at its own time (s from the window start): r (n, 3) km,
+        v (n, 3) km/s, code (n,)."""
+        rows = np.asarray(rows, int)
+        t_s = np.asarray(t_s, float)
+        n = len(rows)
+        r = np.empty((n, 3))
+        v = np.empty((n, 3))
+        code = np.empty(n, dtype=np.int8)
+        sg = rows < len(self.records)
+        if sg.any():
+            r[sg], v[sg], code[sg] = self._batch.states_at(rows[sg], jd0, fr0, t_s[sg])
+        for k in np.unique(rows[~sg]).tolist():
+            sel = rows == k
+            r[sel], v[sel], code[sel] = self.oems[k - len(self.records)].states(jd0, fr0, t_s[sel])
+        return r, v, code
+
     def state_at(self, k: int, jd0: float, fr0: float, t_s: float):
         if self.is_sgp4(k):
             return self._batch.state_at(k, jd0, fr0, t_s)

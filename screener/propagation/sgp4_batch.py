@@ -95,6 +95,37 @@ class Sgp4Batch:
             apply_gates(r, v, code)
         return r, v, code
 
+    def states_at(self, rows: np.ndarray, jd0: float, fr0: float, t_s: np.ndarray,
+                  gates: bool = True):
+        """Each of rows[n] at its own time t_s[n] (root finding over many pairs at once):
+        r (n, 3), v (n, 3), code (n,).  One call per distinct row with all of its times, so
+        the numbers are those of `state_at`, at a fraction of the per-call cost."""
+        rows = np.asarray(rows, int)
+        t_s = np.asarray(t_s, float)
+        n = len(rows)
+        r = np.empty((n, 3))
+        v = np.empty((n, 3))
+        code = np.empty(n, dtype=np.int8)
+        if n == 0:
+            return r, v, code
+        order = np.argsort(rows, kind="stable")
+        rs = rows[order]
+        fr = fr0 + t_s[order] / 86400.0
+        jd = np.full(n, jd0)
+        starts = np.flatnonzero(np.r_[True, rs[1:] != rs[:-1]])
+        ends = np.r_[starts[1:], n]
+        for a, b in zip(starts.tolist(), ends.tolist()):
+            e, rr, vv = self._sats[rs[a]].sgp4_array(jd[a:b], fr[a:b])
+            sel = order[a:b]
+            r[sel], v[sel], code[sel] = rr, vv, e
+        failed = code != codes.OK
+        if failed.any():
+            r[failed] = np.nan
+            v[failed] = np.nan
+        if gates:
+            apply_gates(r, v, code)
+        return r, v, code
+
     def state_at(self, k: int, jd0: float, fr0: float, t_s: float):
         """One object, one time (for root finding): r, v arrays (3,), code int."""
         sat = self._sats[k]

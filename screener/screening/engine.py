@@ -23,12 +23,12 @@ from ..errors import ScreenerError
 from ..propagation import codes
 from ..propagation.ephemeris import Population
 from ..workers import result_of
-from .encounter import (SLOW_RELATIVE_SPEED_KM_S, Encounter, add_range_profile, fill_altitudes,
-                        make_encounter)
+from .encounter import (SLOW_RELATIVE_SPEED_KM_S, Encounter, add_range_profiles, fill_altitudes,
+                        make_encounters)
 from .filters import apogee_perigee_mask, bounds_array, radial_bounds_km
-from .refine import brackets_from_candidates, crossing_times, solve_tca
+from .refine import brackets_from_candidates, crossing_times, solve_tcas
 from .ric import to_ric
-from .sieve import fleet_candidates, kd_candidates
+from .sieve import fleet_candidates, kd_candidates, top_speeds
 from .volume import Volume
 
 # Grid steps.  Cubic Hermite midpoint error measured against SGP4 over one day:
@@ -183,6 +183,7 @@ def run_task(task: Task) -> TaskResult:
         r32, v32 = r.astype(np.float32), v.astype(np.float32)
         if len(s_arr):
             s_bounds = bounds_array([_bounds(sec[k - n_p_rec], task) for k in s_arr])
+            s_top = top_speeds(v32[s_arr])
         n_cand = 0
         filter_s = 0.0
         for p in p_rows:
@@ -196,8 +197,8 @@ def run_task(task: Task) -> TaskResult:
             filter_s += time.perf_counter() - t_f
             if not len(ss):
                 continue
-            si, kk = fleet_candidates(r32[p], v32[p], r32[ss], v32[ss], usable[ss] & usable[p][None], h,
-                                      reach + FLOAT32_PAD_KM)
+            si, kk = fleet_candidates(r32[p], v32[p], r32[ss], v32, usable[ss] & usable[p][None], h,
+                                      reach + FLOAT32_PAD_KM, s_top[mask], rows=ss)
             n_cand += len(si)
             brackets += brackets_from_candidates(t, r, v, np.full(len(si), p), ss[si], kk, reach, row_of)
         stats["candidates"] = n_cand
@@ -205,27 +206,38 @@ def run_task(task: Task) -> TaskResult:
     stats["sieve_s"] = time.perf_counter() - t_sieve - stats.get("filter_s", 0.0)
     stats["brackets"] = len(brackets)
     t_ref = time.perf_counter()
-    out = []
-    for b in brackets:
-        tca = solve_tca(pop, b, task.jd0, task.fr0, 0.0, task.window_s)
-        if tca is None:
-            continue
-        if tca >= min(cutoff.get(pop.ids[b.i], math.inf), cutoff.get(pop.ids[b.j], math.inf)):
-            continue          # after one of the two re-entered: not a state to trust
-        if not (task.t0_s <= tca < task.t1_s or (task.last_span and tca <= task.t1_s)):
-            continue
-        e = make_encounter(pop, b.i, b.j, tca, task.jd0, task.fr0)
-        ric = np.array([e.radial_km, e.in_track_km, e.cross_track_km])
-        if not task.volume.contains(ric):
-            continue
-        if e.relative_speed_km_s < SLOW_RELATIVE_SPEED_KM_S:
-            e.entry_s, e.exit_s = crossing_times(pop, b.i, b.j, task.jd0, task.fr0, tca,
-                                                 task.volume, 0.0, task.window_s)
-        add_range_profile(pop, e, b.i, b.j)
-        out.append(e)
+    out = _refine(pop, brackets, task, cutoff)
     stats["refine_s"] = time.perf_counter() - t_ref
     stats["peak_rss_mb"] = _peak_rss_mb()
     return TaskResult(_dedupe(out), unusable, stats)
+
+
+def _refine(pop: Population, brackets: list, task: Task, cutoff: dict[str, float]) -> list[Encounter]:
+    """TCA of every bracket on the real propagator, then the encounters inside the volume,
+    each stage over all brackets of the task at once."""
+    tca = solve_tcas(pop, brackets, task.jd0, task.fr0, 0.0, task.window_s)
+    bi = np.array([b.i for b in brackets], int)
+    bj = np.array([b.j for b in brackets], int)
+    cut = np.array([min(cutoff.get(pop.ids[a], math.inf), cutoff.get(pop.ids[b], math.inf))
+                    for a, b in zip(bi.tolist(), bj.tolist())])
+    with np.errstate(invalid="ignore"):
+        # after one of the two re-entered: not a state to trust
+        ok = np.isfinite(tca) & (tca < cut) if len(tca) else np.zeros(0, bool)
+        in_span = (task.t0_s <= tca) & (tca < task.t1_s)
+        if task.last_span:
+            in_span |= tca <= task.t1_s
+    keep = np.nonzero(ok & in_span)[0]
+    encs = make_encounters(pop, bi[keep], bj[keep], tca[keep], task.jd0, task.fr0)
+    ric = np.array([[e.radial_km, e.in_track_km, e.cross_track_km] for e in encs]).reshape(-1, 3)
+    inside = task.volume.contains(ric)
+    encs = [e for e, k in zip(encs, inside) if k]
+    keep = keep[inside]
+    for e, a, b in zip(encs, bi[keep].tolist(), bj[keep].tolist()):
+        if e.relative_speed_km_s < SLOW_RELATIVE_SPEED_KM_S:
+            e.entry_s, e.exit_s = crossing_times(pop, a, b, task.jd0, task.fr0, e.tca_s,
+                                                 task.volume, 0.0, task.window_s)
+    add_range_profiles(pop, encs, bi[keep], bj[keep])
+    return encs
 
 
 def _peak_rss_mb() -> float:

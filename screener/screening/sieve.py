@@ -19,20 +19,43 @@ G_KM_S2 = 9.81e-3
 ACCEL_BOUND_KM_S2 = 2.0 * G_KM_S2
 
 
-def fleet_candidates(rp: np.ndarray, vp: np.ndarray, rs: np.ndarray, vs: np.ndarray,
-                     usable: np.ndarray, h_s: float, reach_km: float) -> tuple[np.ndarray, np.ndarray]:
-    """One primary (m,3) against secondaries (n,m,3).  Returns (secondary index, interval index)
-    of every interval whose lower bound on range is <= reach_km and whose ends are usable."""
-    rho = rs - rp[None]
-    w = vs - vp[None]
-    d = np.sqrt(np.einsum("nmi,nmi->nm", rho, rho))
-    ws = np.sqrt(np.einsum("nmi,nmi->nm", w, w))
-    W = np.maximum(ws[:, :-1], ws[:, 1:]) + ACCEL_BOUND_KM_S2 * h_s / 2.0
-    lb = 0.5 * (d[:, :-1] + d[:, 1:] - h_s * W)
-    ok = usable[:, :-1] & usable[:, 1:]
+def top_speeds(v: np.ndarray) -> np.ndarray:
+    """Each object's largest speed over its samples (n, m, 3) -> (n,), unusable ones ignored."""
     with np.errstate(invalid="ignore"):
-        hit = (lb <= reach_km) & ok
-    return np.nonzero(hit)
+        return np.nanmax(np.sqrt(np.einsum("nmi,nmi->nm", v, v)), axis=1, initial=0.0)
+
+
+def fleet_candidates(rp: np.ndarray, vp: np.ndarray, rs: np.ndarray, vs: np.ndarray,
+                     usable: np.ndarray, h_s: float, reach_km: float,
+                     s_top_speed: np.ndarray | None = None,
+                     rows: np.ndarray | None = None) -> tuple[np.ndarray, np.ndarray]:
+    """One primary (m,3) against secondaries (n,m,3).  Returns (secondary index, interval index)
+    of every interval whose lower bound on range is <= reach_km and whose ends are usable.
+    s_top_speed: the secondaries' top_speeds, when the caller has them for many primaries;
+    rows: the secondaries' rows of vs when vs holds more objects (not copied)."""
+    rho = rs - rp[None]
+    d = np.sqrt(np.einsum("nmi,nmi->nm", rho, rho))
+    ok = usable[:, :-1] & usable[:, 1:]
+    # first with each secondary's largest relative speed over the span (|v_s| + |v_p|, a
+    # bound on every interval's W): it only needs the ranges, and the exact test below runs
+    # on the few intervals it lets through
+    if s_top_speed is None:
+        s_top_speed = top_speeds(vs if rows is None else vs[rows])
+    w_top = s_top_speed + top_speeds(vp[None])[0]
+    with np.errstate(invalid="ignore"):
+        d_sum = d[:, :-1] + d[:, 1:]
+        maybe = (0.5 * (d_sum - h_s * (w_top[:, None] + ACCEL_BOUND_KM_S2 * h_s / 2.0)) <= reach_km) & ok
+    n_idx, k_idx = np.nonzero(maybe)
+    if not len(n_idx):
+        return n_idx, k_idx
+    vrow = n_idx if rows is None else rows[n_idx]
+    w0 = vs[vrow, k_idx] - vp[k_idx]
+    w1 = vs[vrow, k_idx + 1] - vp[k_idx + 1]
+    W = np.maximum(np.sqrt(np.einsum("ni,ni->n", w0, w0)), np.sqrt(np.einsum("ni,ni->n", w1, w1))) \
+        + ACCEL_BOUND_KM_S2 * h_s / 2.0
+    lb = 0.5 * (d_sum[n_idx, k_idx] - h_s * W)
+    hit = lb <= reach_km
+    return n_idx[hit], k_idx[hit]
 
 
 # Over +-dt/2 around a substep the relative path departs from its tangent line by at most
