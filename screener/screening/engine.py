@@ -150,17 +150,29 @@ def run_task(task: Task) -> TaskResult:
     t_start = time.perf_counter()
     prim = list(task.primaries)
     sec = list(task.secondaries)
+    n_fill = 0
+    if not task.all_vs_all:
+        # the secondaries the two-body fill covers first, so that their rows are one block
+        ok = [_fillable(rec, task) for rec in sec]
+        sec = [rec for rec, k in zip(sec, ok) if k] + [rec for rec, k in zip(sec, ok) if not k]
+        n_fill = sum(ok)
     pop = Population(prim + sec, oems=task.primary_oems)
     n_p_rec = len(prim)
     p_rows = list(range(n_p_rec)) + list(range(len(prim) + len(sec), len(pop)))
     s_rows = list(range(n_p_rec, n_p_rec + len(sec)))
     t = _grid(task.t0_s, task.t1_s, task.step_s)
     h = t[1] - t[0]
-    r, v, code = pop.states(task.jd0, task.fr0, t)
+    if task.all_vs_all:
+        r, v, code = pop.states(task.jd0, task.fr0, t)
+        filled = np.zeros(len(pop), bool)
+        fill_pos_km = fill_vel_km_s = 0.0
+    else:
+        r, v, code, filled, fill_pos_km, fill_vel_km_s = _fleet_states(
+            pop, task, t, np.arange(n_p_rec, n_p_rec + n_fill))
     cutoff = _apply_decay(pop, t, code, task.cutoff_s)
     usable = code == codes.OK
     stats = {"objects": len(pop), "grid_points": len(t), "propagate_s": time.perf_counter() - t_start,
-             "t0_s": task.t0_s, "t1_s": task.t1_s}
+             "t0_s": task.t0_s, "t1_s": task.t1_s, "filled": int(filled.sum())}
     unusable = {}
     for k in np.nonzero(~usable.all(axis=1))[0]:
         bad = np.nonzero(code[k] != codes.OK)[0]
@@ -184,8 +196,13 @@ def run_task(task: Task) -> TaskResult:
         if len(s_arr):
             s_bounds = bounds_array([_bounds(sec[k - n_p_rec], task) for k in s_arr])
             s_top = top_speeds(v32[s_arr])
+        # a filled secondary's fine states are two-body from the nearest exact sample: its
+        # reach grows by the fill's position bound and, for the range-rate term h W / 2, by
+        # h times its velocity bound over 2
+        s_reach = reach + FLOAT32_PAD_KM + np.where(filled[s_arr], fill_pos_km + h * fill_vel_km_s / 2.0, 0.0)
         n_cand = 0
         filter_s = 0.0
+        cand = []
         for p in p_rows:
             if not len(s_arr):
                 break
@@ -198,9 +215,13 @@ def run_task(task: Task) -> TaskResult:
             if not len(ss):
                 continue
             si, kk = fleet_candidates(r32[p], v32[p], r32[ss], v32, usable[ss] & usable[p][None], h,
-                                      reach + FLOAT32_PAD_KM, s_top[mask], rows=ss)
+                                      s_reach[mask], s_top[mask], rows=ss)
             n_cand += len(si)
-            brackets += brackets_from_candidates(t, r, v, np.full(len(si), p), ss[si], kk, reach, row_of)
+            cand.append((np.full(len(si), p), ss[si], kk))
+        if cand:
+            ci, cj, ck = (np.concatenate(x) for x in zip(*cand))
+            _exact_at(pop, task, t, r, v, code, filled, cj, ck)
+            brackets = brackets_from_candidates(t, r, v, ci, cj, ck, reach, row_of)
         stats["candidates"] = n_cand
         stats["filter_s"] = filter_s
     stats["sieve_s"] = time.perf_counter() - t_sieve - stats.get("filter_s", 0.0)
@@ -210,6 +231,64 @@ def run_task(task: Task) -> TaskResult:
     stats["refine_s"] = time.perf_counter() - t_ref
     stats["peak_rss_mb"] = _peak_rss_mb()
     return TaskResult(_dedupe(out), unusable, stats)
+
+
+def _fillable(rec: ElementSet, task: Task) -> bool:
+    """Whether the two-body fill's bound covers this secondary over the task: a near-earth
+    element set (SGP4's deep-space branch is left out) that does not re-enter in the window
+    and whose perigee stays above kepler_fill.FILL_MIN_PERIGEE_KM."""
+    from ..constants import RE_WGS72_KM
+    from ..propagation.kepler_fill import FILL_MIN_PERIGEE_KM
+    from .filters import DEEP_SPACE_PERIOD_S
+
+    return (rec.catalog_id not in task.cutoff_s and rec.orbit().period_s < DEEP_SPACE_PERIOD_S
+            and _bounds(rec, task)[0] >= RE_WGS72_KM + FILL_MIN_PERIGEE_KM)
+
+
+def _fleet_states(pop: Population, task: Task, t: np.ndarray, fill_rows: np.ndarray):
+    """Grid states for a fleet task: exact SGP4 everywhere for the primaries and the
+    secondaries the two-body fill does not cover, and for the block `fill_rows` of fillable
+    secondaries exact at every COARSE_EVERY-th point with the two-body fill between
+    (propagation.kepler_fill); one of those with a bad sample there is propagated exactly
+    instead.  Returns r, v, code, which rows are filled, and the fill's position (km) and
+    velocity (km/s) bounds."""
+    from ..propagation.kepler_fill import coarse_indices, fill_between, fill_pads
+
+    n, m = len(pop), len(t)
+    r = np.empty((n, m, 3))
+    v = np.empty((n, m, 3))
+    code = np.empty((n, m), dtype=np.int8)
+    filled = np.zeros(n, bool)
+    cidx = coarse_indices(m)
+    tau_max = 0.0
+    if len(fill_rows) and len(cidx) < m:
+        a, b = int(fill_rows[0]), int(fill_rows[-1]) + 1       # one block of rows: views
+        rc, vc, cc = pop.states(task.jd0, task.fr0, t[cidx], rows=fill_rows)
+        r[a:b, cidx], v[a:b, cidx] = rc, vc
+        del rc, vc
+        tau_max = fill_between(r[a:b], v[a:b], t)
+        code[a:b] = codes.OK
+        filled[a:b] = (cc == codes.OK).all(axis=1)
+    exact = np.nonzero(~filled)[0]
+    if len(exact):
+        r[exact], v[exact], code[exact] = pop.states(task.jd0, task.fr0, t, rows=exact)
+    pos_km, vel_km_s = fill_pads(tau_max)
+    return r, v, code, filled, pos_km, vel_km_s
+
+
+def _exact_at(pop: Population, task: Task, t: np.ndarray, r, v, code, filled, rows, k) -> None:
+    """Exact SGP4 states, in place, at both ends of every candidate interval (rows[n], k[n])
+    of a filled secondary: brackets and TCA never see a two-body state.  A state SGP4 cannot
+    give there is marked in `code` and left NaN (no bracket can form on it)."""
+    sel = filled[rows]
+    if not sel.any():
+        return
+    rr = np.r_[rows[sel], rows[sel]]
+    kk = np.r_[k[sel], k[sel] + 1]
+    key = np.unique(rr.astype(np.int64) * len(t) + kk)
+    rr, kk = key // len(t), key % len(t)
+    er, ev, ec = pop.states_at(rr, task.jd0, task.fr0, t[kk])
+    r[rr, kk], v[rr, kk], code[rr, kk] = er, ev, ec
 
 
 def _refine(pop: Population, brackets: list, task: Task, cutoff: dict[str, float]) -> list[Encounter]:
@@ -436,6 +515,8 @@ def gather(req: ScreeningRequest, results: Sequence[TaskResult], wall_s: float) 
     stats = {"tasks": len(results), "wall_s": wall_s}
     for key in ("candidates", "brackets"):
         stats[key] = sum(r.stats.get(key, 0) for r in results)
+    # secondaries x spans whose grid states were two-body filled between exact samples
+    stats["filled_object_spans"] = sum(r.stats.get("filled", 0) for r in results)
     # per stage, seconds summed over tasks (CPU time across the workers, not wall time)
     stats["task_stage_s"] = {k: sum(r.stats.get(f"{k}_s", 0.0) for r in results)
                              for k in ("propagate", "filter", "sieve", "refine")}

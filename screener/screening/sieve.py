@@ -26,13 +26,15 @@ def top_speeds(v: np.ndarray) -> np.ndarray:
 
 
 def fleet_candidates(rp: np.ndarray, vp: np.ndarray, rs: np.ndarray, vs: np.ndarray,
-                     usable: np.ndarray, h_s: float, reach_km: float,
+                     usable: np.ndarray, h_s: float, reach_km,
                      s_top_speed: np.ndarray | None = None,
                      rows: np.ndarray | None = None) -> tuple[np.ndarray, np.ndarray]:
     """One primary (m,3) against secondaries (n,m,3).  Returns (secondary index, interval index)
-    of every interval whose lower bound on range is <= reach_km and whose ends are usable.
-    s_top_speed: the secondaries' top_speeds, when the caller has them for many primaries;
-    rows: the secondaries' rows of vs when vs holds more objects (not copied)."""
+    of every interval whose lower bound on range is <= reach_km (one value, or one per
+    secondary) and whose ends are usable.  s_top_speed: the secondaries' top_speeds, when the
+    caller has them for many primaries; rows: the secondaries' rows of vs when vs holds more
+    objects (not copied)."""
+    reach = np.broadcast_to(np.asarray(reach_km, float), (len(rs),))
     rho = rs - rp[None]
     d = np.sqrt(np.einsum("nmi,nmi->nm", rho, rho))
     ok = usable[:, :-1] & usable[:, 1:]
@@ -44,17 +46,18 @@ def fleet_candidates(rp: np.ndarray, vp: np.ndarray, rs: np.ndarray, vs: np.ndar
     w_top = s_top_speed + top_speeds(vp[None])[0]
     with np.errstate(invalid="ignore"):
         d_sum = d[:, :-1] + d[:, 1:]
-        maybe = (0.5 * (d_sum - h_s * (w_top[:, None] + ACCEL_BOUND_KM_S2 * h_s / 2.0)) <= reach_km) & ok
+        maybe = (0.5 * (d_sum - h_s * (w_top[:, None] + ACCEL_BOUND_KM_S2 * h_s / 2.0)) <= reach[:, None]) & ok
     n_idx, k_idx = np.nonzero(maybe)
     if not len(n_idx):
         return n_idx, k_idx
     vrow = n_idx if rows is None else rows[n_idx]
     w0 = vs[vrow, k_idx] - vp[k_idx]
     w1 = vs[vrow, k_idx + 1] - vp[k_idx + 1]
-    W = np.maximum(np.sqrt(np.einsum("ni,ni->n", w0, w0)), np.sqrt(np.einsum("ni,ni->n", w1, w1))) \
-        + ACCEL_BOUND_KM_S2 * h_s / 2.0
-    lb = 0.5 * (d_sum[n_idx, k_idx] - h_s * W)
-    hit = lb <= reach_km
+    w_end = np.maximum(np.sqrt(np.einsum("ni,ni->n", w0, w0)), np.sqrt(np.einsum("ni,ni->n", w1, w1)))
+    ds = d_sum[n_idx, k_idx]
+    W = w_end + ACCEL_BOUND_KM_S2 * h_s / 2.0
+    lb = 0.5 * (ds - h_s * W)
+    hit = lb <= reach[n_idx]
     return n_idx[hit], k_idx[hit]
 
 
