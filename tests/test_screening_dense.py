@@ -65,6 +65,18 @@ def reference_minima(records, jd0, fr0):
     return found
 
 
+def _matches(res, ref):
+    """Each reference minimum with the engine's encounters of its pair within 1 s of it; a
+    minimum with none fails the test."""
+    got = {}
+    for e in res.encounters:
+        got.setdefault(frozenset((e.primary, e.secondary)), []).append(e)
+    for p, s, tca, miss in ref:
+        cands = [e for e in got.get(frozenset((p, s)), []) if abs(e.tca_s - tca) < 1.0]
+        assert cands, f"engine missed {p} x {s} at t={tca:.1f} s (miss {miss * 1e3:.0f} m)"
+        yield p, s, tca, miss, cands
+
+
 @pytest.fixture(scope="module")
 def dense():
     jd0, fr0, recs = dense_scenario()
@@ -77,12 +89,7 @@ def test_dense_shell_all_vs_all_matches_brute_force(dense):
     assert len(shell_pairs) >= 20, "the shell must make many close pairs for this to test anything"
     res = screen(ScreeningRequest(catalog=recs, jd0=jd0, fr0=fr0, duration_s=WINDOW_S,
                                   volume=Volume.sphere(RADIUS_KM), workers=2))
-    got = {}
-    for e in res.encounters:
-        got.setdefault(frozenset((e.primary, e.secondary)), []).append(e)
-    for p, s, tca, miss in ref:
-        cands = [e for e in got.get(frozenset((p, s)), []) if abs(e.tca_s - tca) < 1.0]
-        assert cands, f"engine missed {p} x {s} at t={tca:.1f} s (miss {miss * 1e3:.0f} m)"
+    for p, s, tca, miss, cands in _matches(res, ref):
         # a flat slow minimum cannot be placed by a range minimiser (see the reference tests):
         # the engine's miss is never more than 1 m above the reference's
         assert cands[0].miss_km <= miss + ONE_METRE_KM, (p, s, cands[0].miss_km - miss)
@@ -115,10 +122,5 @@ def test_dense_shell_fleet_matches_brute_force(dense):
     assert res.stats["filled_object_spans"] > 0
     mine = [x for x in ref if (x[0] in prim_ids) != (x[1] in prim_ids)]
     assert len(mine) >= 50, "the primaries must have close approaches for this to test anything"
-    got = {}
-    for e in res.encounters:
-        got.setdefault(frozenset((e.primary, e.secondary)), []).append(e)
-    for p, s, tca, miss in mine:
-        cands = [e for e in got.get(frozenset((p, s)), []) if abs(e.tca_s - tca) < 1.0]
-        assert cands, f"engine missed {p} x {s} at t={tca:.1f} s (miss {miss * 1e3:.0f} m)"
+    for p, s, _tca, miss, cands in _matches(res, mine):
         assert min(e.miss_km for e in cands) <= miss + ONE_METRE_KM, (p, s)

@@ -18,7 +18,7 @@ from ..errors import PropagationError
 from . import codes
 from .frames import to_teme
 from .orbit import OrbitSize, orbit_from_mean_motion
-from .sgp4_batch import Sgp4Batch
+from .sgp4_batch import Sgp4Batch, empty_states
 
 from ..constants import MU_EARTH_KM3_S2 as MU  # IERS value (one definition, in constants)
 
@@ -193,12 +193,7 @@ class Population:
     def states_at(self, rows, jd0: float, fr0: float, t_s):
         """Each of `rows` at its own time (s from the window start): r (n, 3) km,
         v (n, 3) km/s, code (n,)."""
-        rows = np.asarray(rows, int)
-        t_s = np.asarray(t_s, float)
-        n = len(rows)
-        r = np.empty((n, 3))
-        v = np.empty((n, 3))
-        code = np.empty(n, dtype=np.int8)
+        rows, t_s, (r, v, code) = np.asarray(rows, int), np.asarray(t_s, float), empty_states(len(rows))
         sg = rows < len(self.records)
         if sg.any():
             r[sg], v[sg], code[sg] = self._batch.states_at(rows[sg], jd0, fr0, t_s[sg])

@@ -45,6 +45,11 @@ def apply_gates(r_km: np.ndarray, v_km_s: np.ndarray, code: np.ndarray) -> None:
     code[fast & ~low & ~far] = codes.IMPLAUSIBLE_SPEED
 
 
+def empty_states(n: int):
+    """Uninitialised r (n, 3), v (n, 3) and code (n,) arrays for states at n instants."""
+    return np.empty((n, 3)), np.empty((n, 3)), np.empty(n, dtype=np.int8)
+
+
 class Sgp4Batch:
     """A fixed list of element sets, propagated together.  Satrecs are built once, here."""
 
@@ -100,12 +105,8 @@ class Sgp4Batch:
         """Each of rows[n] at its own time t_s[n] (root finding over many pairs at once):
         r (n, 3), v (n, 3), code (n,).  One call per distinct row with all of its times, so
         the numbers are those of `state_at`, at a fraction of the per-call cost."""
-        rows = np.asarray(rows, int)
-        t_s = np.asarray(t_s, float)
+        rows, t_s, (r, v, code) = np.asarray(rows, int), np.asarray(t_s, float), empty_states(len(rows))
         n = len(rows)
-        r = np.empty((n, 3))
-        v = np.empty((n, 3))
-        code = np.empty(n, dtype=np.int8)
         if n == 0:
             return r, v, code
         order = np.argsort(rows, kind="stable")
