@@ -121,13 +121,22 @@ def _interpolate(s: _TemeSegment, tt: np.ndarray):
     i = np.searchsorted(s.t_s, tt)
     lo = np.clip(i - k // 2, 0, n - k)
     idx = lo[:, None] + np.arange(k)[None, :]          # (m, k) node indices
-    tn = s.t_s[idx]
-    w = np.ones_like(tn)
+    w = lagrange_weights(tt, s.t_s[idx])
+    return (np.einsum("mk,mki->mi", w, s.r_km[idx]), np.einsum("mk,mki->mi", w, s.v_km_s[idx]))
+
+
+def lagrange_weights(x: np.ndarray, nodes: np.ndarray) -> np.ndarray:
+    """(len(x), k) weights of the interpolating polynomial through k nodes at each x; `nodes`
+    is (k,), the same for every x, or (len(x), k), one set per x."""
+    x = np.asarray(x, float)
+    tn = np.broadcast_to(np.asarray(nodes, float), (len(x), np.shape(nodes)[-1]))
+    k = tn.shape[1]
+    w = np.ones((len(x), k))
     for j in range(k):
         for q in range(k):
             if q != j:
-                w[:, j] *= (tt - tn[:, q]) / (tn[:, j] - tn[:, q])
-    return (np.einsum("mk,mki->mi", w, s.r_km[idx]), np.einsum("mk,mki->mi", w, s.v_km_s[idx]))
+                w[:, j] *= (x - tn[:, q]) / (tn[:, j] - tn[:, q])
+    return w
 
 
 def hermite_cubic(u, r0, v0h, r1, v1h, h):

@@ -169,7 +169,7 @@ def pc_path_importance(path_km: np.ndarray, cov_km2: np.ndarray, hbr_km: float,
             dx2 = np.einsum("ni,ni->n", xh, xh)[:, None] - 2.0 * (xh @ centres.T) + c2[None, :]
             perp2 = np.maximum(dx2 - u * u, 0.0)
             terms = log_comp_norm[None, :] - 0.5 * (u / s_along[None, :]) ** 2 - 0.5 * perp2 / s_across ** 2
-            top = terms.max(axis=1)
+            top = terms.max(axis=1)            # log-sum-exp, without scipy's per-call overhead
             log_mix = top + np.log(np.exp(terms - top[:, None]).sum(axis=1))
             lp = log_p(xh)
             log_q = np.logaddexp(np.log(IS_DEFENSIVE) + lp, np.log1p(-IS_DEFENSIVE) + log_mix)

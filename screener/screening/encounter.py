@@ -7,6 +7,7 @@ import datetime as _dt
 
 import numpy as np
 
+from ..propagation.ephemeris import lagrange_weights
 from ..timeutil import iso_z, jd_to_datetime
 from .ric import to_ric
 
@@ -122,10 +123,6 @@ def make_encounters(pop, i: np.ndarray, j: np.ndarray, tca_s: np.ndarray, jd0: f
     return out
 
 
-def make_encounter(pop, i: int, j: int, tca_s: float, jd0: float, fr0: float) -> Encounter:
-    return make_encounters(pop, [i], [j], [tca_s], jd0, fr0)[0]
-
-
 def fill_altitudes(encounters: list[Encounter]) -> None:
     """Geodetic altitudes at TCA for both objects, one vectorised frame call."""
     if not encounters:
@@ -177,7 +174,7 @@ def add_range_profiles(pop, encs: list[Encounter], i: np.ndarray, j: np.ndarray)
         good = ok.all(axis=1)
         exact += list(q[~good])
         q, rel = q[good], rel[good]
-        path = np.einsum("sm,nmi->nsi", _lagrange_weights(frac, node_frac), rel)
+        path = np.einsum("sm,nmi->nsi", lagrange_weights(frac, node_frac), rel)
         for k, p in zip(q.tolist(), path):
             _set_profile(encs[k], half[k], p, np.ones(PROFILE_SAMPLES, bool))
     if exact:
@@ -197,16 +194,6 @@ def _relative_positions(pop, i, j, jd0, fr0, t_s):
     return (r[k:] - r[:k]).reshape(n, m, 3), ((c[:k] == 0) & (c[k:] == 0)).reshape(n, m)
 
 
-def _lagrange_weights(x: np.ndarray, nodes: np.ndarray) -> np.ndarray:
-    """(len(x), len(nodes)) weights of the interpolating polynomial through `nodes`."""
-    w = np.ones((len(x), len(nodes)))
-    for a in range(len(nodes)):
-        for b in range(len(nodes)):
-            if a != b:
-                w[:, a] *= (x - nodes[b]) / (nodes[a] - nodes[b])
-    return w
-
-
 def _set_profile(e: Encounter, half: float, rel: np.ndarray, ok: np.ndarray) -> None:
     rng = np.linalg.norm(rel, axis=1)
     rng[~ok] = np.nan
@@ -215,6 +202,3 @@ def _set_profile(e: Encounter, half: float, rel: np.ndarray, ok: np.ndarray) -> 
     e.range_profile_km = rng
     e.relative_path_km = np.ascontiguousarray(rel[ok])
 
-
-def add_range_profile(pop, e: Encounter, i: int, j: int) -> None:
-    add_range_profiles(pop, [e], [i], [j])

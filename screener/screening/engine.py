@@ -152,9 +152,12 @@ def run_task(task: Task) -> TaskResult:
     sec = list(task.secondaries)
     n_fill = 0
     if not task.all_vs_all:
-        # the secondaries the two-body fill covers first, so that their rows are one block
-        ok = [_fillable(rec, task) for rec in sec]
-        sec = [rec for rec, k in zip(sec, ok) if k] + [rec for rec, k in zip(sec, ok) if not k]
+        # radial bounds once per secondary; the secondaries the two-body fill covers first, so
+        # that their rows are one block
+        bounds = [_bounds(rec, task) for rec in sec]
+        ok = [_fillable(rec, b[0], task) for rec, b in zip(sec, bounds)]
+        order = [k for k in range(len(sec)) if ok[k]] + [k for k in range(len(sec)) if not ok[k]]
+        sec, bounds = [sec[k] for k in order], [bounds[k] for k in order]
         n_fill = sum(ok)
     pop = Population(prim + sec, oems=task.primary_oems)
     n_p_rec = len(prim)
@@ -194,7 +197,7 @@ def run_task(task: Task) -> TaskResult:
         # its memory traffic without weakening it
         r32, v32 = r.astype(np.float32), v.astype(np.float32)
         if len(s_arr):
-            s_bounds = bounds_array([_bounds(sec[k - n_p_rec], task) for k in s_arr])
+            s_bounds = bounds_array(bounds)
             s_top = top_speeds(v32[s_arr])
         # a filled secondary's fine states are two-body from the nearest exact sample: its
         # reach grows by the fill's position bound and, for the range-rate term h W / 2, by
@@ -233,16 +236,16 @@ def run_task(task: Task) -> TaskResult:
     return TaskResult(_dedupe(out), unusable, stats)
 
 
-def _fillable(rec: ElementSet, task: Task) -> bool:
+def _fillable(rec: ElementSet, min_radius_km: float, task: Task) -> bool:
     """Whether the two-body fill's bound covers this secondary over the task: a near-earth
     element set (SGP4's deep-space branch is left out) that does not re-enter in the window
-    and whose perigee stays above kepler_fill.FILL_MIN_PERIGEE_KM."""
+    and whose lowest radius (its radial bound) stays above kepler_fill.FILL_MIN_PERIGEE_KM."""
     from ..constants import RE_WGS72_KM
     from ..propagation.kepler_fill import FILL_MIN_PERIGEE_KM
     from .filters import DEEP_SPACE_PERIOD_S
 
     return (rec.catalog_id not in task.cutoff_s and rec.orbit().period_s < DEEP_SPACE_PERIOD_S
-            and _bounds(rec, task)[0] >= RE_WGS72_KM + FILL_MIN_PERIGEE_KM)
+            and min_radius_km >= RE_WGS72_KM + FILL_MIN_PERIGEE_KM)
 
 
 def _fleet_states(pop: Population, task: Task, t: np.ndarray, fill_rows: np.ndarray):
