@@ -7,8 +7,8 @@ import math
 import numpy as np
 
 from .encounter_plane import project, project_many, ric_to_inertial_cov, ric_to_inertial_cov_many
-from .pc import (chan_is_reliable, in_dilution_region, pc_chan, pc_max_line, pc_max_scaled,
-                 pc_max_scaled_many, pc_quadrature, pc_quadrature_many)
+from .pc import (chan_is_reliable, chan_reliable_many, in_dilution_region, pc_chan, pc_chan_many,
+                 pc_max_line, pc_max_scaled, pc_max_scaled_many, pc_quadrature, pc_quadrature_many)
 
 
 def assess(r1_km, v1_km_s, cov1_rtn_km2, r2_km, v2_km_s, cov2_rtn_km2, hbr_m: float,
@@ -30,13 +30,18 @@ def _geometry(r1_km, v1_km_s, cov1_rtn_km2, r2_km, v2_km_s, cov2_rtn_km2):
     return project(rho, w, c), rho, w
 
 
+CHAN_METHOD = "Chan series"
+
+
 def _chosen(args, pc_ref: float | None = None) -> tuple[float, str]:
     """The Pc every output reports: Chan's series where it is reliable, else the quadrature."""
-    ok, why = chan_is_reliable(*args)
-    if ok:
-        return pc_chan(*args), "Chan series"
-    pc_ref = pc_quadrature(*args) if pc_ref is None else pc_ref
-    return pc_ref, f"2-D quadrature (Chan not used: {why})"
+    if chan_is_reliable(*args)[0]:
+        return pc_chan(*args), CHAN_METHOD
+    return _quadrature_instead(args, pc_quadrature(*args) if pc_ref is None else pc_ref)
+
+
+def _quadrature_instead(args, pc_ref: float) -> tuple[float, str]:
+    return pc_ref, f"2-D quadrature (Chan not used: {chan_is_reliable(*args)[1]})"
 
 
 def pc_2d(r1_km, v1_km_s, cov1_rtn_km2, r2_km, v2_km_s, cov2_rtn_km2, hbr_m: float) -> float:
@@ -65,10 +70,16 @@ def assess_many(items) -> list[dict]:
     pc_ref = pc_quadrature_many(xm, ym, sx, sy, R)
     worst, _k = pc_max_scaled_many(xm, ym, sx, sy, R)
     dilution = pc_quadrature_many(xm, ym, sx * 0.9, sy * 0.9, R) > pc_ref
+    chan_ok = chan_reliable_many(xm, ym, sx, sy, R)
+    chan = np.zeros(len(xm))
+    chan[chan_ok] = pc_chan_many(xm[chan_ok], ym[chan_ok], sx[chan_ok], sy[chan_ok], R[chan_ok])
     out = []
     for n, (g, it) in enumerate(zip(geos, items)):
         hbr_m, source = it[6], it[7]
-        pc, method = _chosen((g.xm_m, g.ym_m, g.sx_m, g.sy_m, hbr_m), float(pc_ref[n]))
+        if chan_ok[n]:
+            pc, method = float(chan[n]), CHAN_METHOD
+        else:
+            pc, method = _quadrature_instead((g.xm_m, g.ym_m, g.sx_m, g.sy_m, hbr_m), float(pc_ref[n]))
         out.append(_result(g, rhos[n], ws[n], hbr_m, source, pc, method, float(pc_ref[n]),
                            float(worst[n]), bool(dilution[n])))
     return out

@@ -13,6 +13,7 @@ All covariances here are 3x3 position blocks in the object's own RTN (= RIC) fra
 from __future__ import annotations
 
 import dataclasses
+import math
 from typing import Mapping, Sequence
 
 import numpy as np
@@ -61,11 +62,15 @@ class CovarianceEstimate:
 
     @property
     def sigma_rtn_km(self) -> tuple[float, float, float]:
-        return tuple(float(x) for x in np.sqrt(np.diag(self.cov_rtn_km2)))
+        c = self.cov_rtn_km2
+        return (math.sqrt(c[0, 0]), math.sqrt(c[1, 1]), math.sqrt(c[2, 2]))
 
 
 def diag_km2(sigma_rtn_km: Sequence[float]) -> np.ndarray:
-    return np.diag(np.square(np.asarray(sigma_rtn_km, float)))
+    out = np.zeros((3, 3))
+    r, i, c = (float(x) for x in sigma_rtn_km)
+    out[0, 0], out[1, 1], out[2, 2] = r * r, i * i, c * c
+    return out
 
 
 @dataclasses.dataclass(frozen=True)
@@ -75,8 +80,8 @@ class SigmaGrowth:
     growth_km_per_day: tuple[float, float, float] = (0.0, 0.0, 0.0)
 
     def at(self, age_days: float) -> np.ndarray:
-        s = np.asarray(self.sigma_km) + np.asarray(self.growth_km_per_day) * abs(age_days)
-        return diag_km2(s)
+        a = abs(age_days)
+        return diag_km2([s + g * a for s, g in zip(self.sigma_km, self.growth_km_per_day)])
 
 
 def assumed(regime: str, age_days: float) -> CovarianceEstimate:

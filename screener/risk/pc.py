@@ -90,8 +90,11 @@ GOLDEN_STEPS = 24      # a bracket of 1.0 in log scale narrowed to 1e-5 (0.618^2
 
 
 def pc_max_scaled_many(xm, ym, sx, sy, R) -> tuple[np.ndarray, np.ndarray]:
-    """pc_max_scaled for many geometries: the same log-scale grid, then a golden-section
-    search inside each geometry's bracket, all in array operations.  Returns (max Pc, k)."""
+    """pc_max_scaled for many geometries, in array operations: where the disk is small
+    against the covariance near the peak, successive parabolas through log Pc around the
+    small-disk peak (VERTEX_STEPS); elsewhere, and wherever that search cannot vouch for its
+    answer, the same log-scale grid as pc_max_scaled and a golden-section search inside each
+    geometry's bracket.  Returns (max Pc, k)."""
     xm, ym, sx, sy, R = np.broadcast_arrays(*(np.asarray(v, float) for v in (xm, ym, sx, sy, R)))
     n = len(xm)
     best_pc, best_k = np.zeros(n), np.ones(n)
@@ -99,28 +102,60 @@ def pc_max_scaled_many(xm, ym, sx, sy, R) -> tuple[np.ndarray, np.ndarray]:
     inside = d <= R
     best_pc[inside], best_k[inside] = 1.0, math.exp(SCALE_GRID[0])
     # Small-disk limit: Pc(k) ~ R^2 / (2 sx sy k^2) exp(-v / (2 k^2)), v the squared
-    # Mahalanobis miss, peaks at k = sqrt(v / 2).  Where the disk is still small there, a
-    # narrow grid around that peak (+-2 in log k) finds the bracket; elsewhere the full grid.
+    # Mahalanobis miss, peaks at k = sqrt(v / 2); log Pc against log k is near a parabola
+    # there (curvature -4).
     v = (xm / sx) ** 2 + (ym / sy) ** 2
     k_star = np.sqrt(np.maximum(v, 1e-300) / 2.0)
-    narrow = ~inside & (R <= FIXED_RULE_MAX_R * np.minimum(sx, sy) * k_star * math.exp(-2.0))
-    edge: list[np.ndarray] = []
-    _max_over_rows(np.nonzero(narrow)[0], lambda r: np.log(k_star[r])[:, None] + NARROW_GRID[None, :],
-                   xm, ym, sx, sy, R, d, best_pc, best_k, edge)
-    # the full grid for the rest, and for any row whose narrow-grid best sat at an end
-    rest = np.concatenate([np.nonzero(~inside & ~narrow)[0], *edge]).astype(int)
-    _max_over_rows(rest, lambda r: np.broadcast_to(SCALE_GRID, (len(r), len(SCALE_GRID))),
-                   xm, ym, sx, sy, R, d, best_pc, best_k, None)
+    failed = _max_by_vertex(np.nonzero(~inside)[0], np.log(k_star), xm, ym, sx, sy, R,
+                            best_pc, best_k)
+    _max_over_rows(failed, lambda r: np.broadcast_to(SCALE_GRID, (len(r), len(SCALE_GRID))),
+                   xm, ym, sx, sy, R, d, best_pc, best_k)
     return best_pc, best_k
 
 
-NARROW_GRID = np.linspace(-2.0, 2.0, 9)
+# Half-widths in log k of the successive parabolas.  With g = log Pc against x = log k, the
+# vertex of a parabola through three points h apart is off the true peak by about
+# g3 h^2 / (6 |g2|) (g2, g3 the second and third derivatives: -4 and 8 in the small-disk
+# limit, so h^2 / 3), plus the square of the previous offset: 0.2, 0.02, 0.002 leave about
+# 1e-6 in log k, so about 2e-12 relative in the maximum (|g2| offset^2 / 2).  Checked against
+# the grid-and-golden search and against a dense search in the tests.
+VERTEX_STEPS = (0.2, 0.02, 0.002)
 
 
-def _max_over_rows(rows, grid_of, xm, ym, sx, sy, R, d, best_pc, best_k, edge) -> None:
+def _max_by_vertex(rows, log_k0, xm, ym, sx, sy, R, best_pc, best_k) -> np.ndarray:
+    """The parabola search for the given rows, in place into best_pc, best_k.  Returns the
+    rows it cannot vouch for: a point where the fixed rule does not apply, a zero or non-
+    finite Pc, a non-concave triple, or a vertex more than one step from its centre."""
+    failed = []
+    step = max(1, BATCH_ROWS // 3)
+    for a in range(0, len(rows), step):
+        r = rows[a:a + step]
+        c = log_k0[r]
+        smin = np.minimum(sx[r], sy[r])
+        good = np.ones(len(r), bool)
+        for h in VERTEX_STEPS:
+            lk = c[:, None] + np.array([-h, 0.0, h])[None, :]
+            good &= R[r] <= FIXED_RULE_MAX_R * smin * np.exp(lk[:, 0])
+            ks = np.exp(np.where(good[:, None], lk, 0.0))
+            XM, YM, RR = (np.broadcast_to(v[r, None], ks.shape) for v in (xm, ym, R))
+            vals = _fixed_rows(XM, YM, sx[r, None] * ks, sy[r, None] * ks, RR)
+            with np.errstate(divide="ignore", invalid="ignore"):
+                g = np.log(vals)
+                curv = g[:, 2] - 2.0 * g[:, 1] + g[:, 0]
+                shift = h * (g[:, 0] - g[:, 2]) / (2.0 * curv)
+            good &= np.isfinite(g).all(axis=1) & (curv < 0) & (np.abs(shift) <= h)
+            c = np.where(good, c + np.where(good, shift, 0.0), c)
+        ks = np.exp(np.where(good, c, 0.0))
+        top = _fixed_rows(xm[r], ym[r], sx[r] * ks, sy[r] * ks, R[r])
+        good &= np.isfinite(top) & (top > 0)
+        best_pc[r[good]], best_k[r[good]] = top[good], ks[good]
+        failed.append(r[~good])
+    return np.concatenate(failed).astype(int) if failed else np.empty(0, int)
+
+
+def _max_over_rows(rows, grid_of, xm, ym, sx, sy, R, d, best_pc, best_k) -> None:
     """Grid, then golden section inside the best grid point's bracket, for the given rows
-    (in place into best_pc, best_k).  With `edge` a list, rows whose best grid point is at
-    either end are left out and appended to it."""
+    (in place into best_pc, best_k)."""
     if not len(rows):
         return
     width = grid_of(rows[:1]).shape[1]
@@ -139,14 +174,6 @@ def _max_over_rows(rows, grid_of, xm, ym, sx, sy, R, d, best_pc, best_k, edge) -
         for i, j in zip(*np.nonzero(~ok & ~far)):
             vals[i, j] = pc_quadrature_adaptive(XM[i, j], YM[i, j], gx[i, j], gy[i, j], RR[i, j])
         g = np.argmax(vals, axis=1)
-        if edge is not None:
-            at_end = (g == 0) | (g == width - 1)
-            if at_end.any():
-                edge.append(r[at_end])
-                keep = ~at_end
-                r, LG, ks, vals, g = r[keep], LG[keep], ks[keep], vals[keep], g[keep]
-                if not len(r):
-                    continue
         rr = np.arange(len(r))
         lo = LG[rr, np.maximum(g - 1, 0)]
         hi = LG[rr, np.minimum(g + 1, width - 1)]
@@ -212,19 +239,49 @@ def pc_chan(xm: float, ym: float, sx: float, sy: float, R: float, terms: int | N
     return float(total)
 
 
+# Chan's series is the Poisson-mixture form of the noncentral chi-square distribution with
+# two degrees of freedom (common practice): Pc = P[chi'^2(2, v) <= u].  scipy's chndtr
+# (Boost) gives it in one array call; measured against the series on 10,079 encounter
+# geometries it agrees to 1.5e-14 relative down to 1e-60, and it returns 0 further out, where
+# the series is summed as before.
+CHAN_ARRAY_FLOOR = 1e-50
+
+
+def pc_chan_many(xm, ym, sx, sy, R) -> np.ndarray:
+    """pc_chan for many geometries (1-D arrays)."""
+    xm, ym, sx, sy, R = np.broadcast_arrays(*(np.asarray(v, float) for v in (xm, ym, sx, sy, R)))
+    out = special.chndtr(R * R / (sx * sy), 2.0, (xm / sx) ** 2 + (ym / sy) ** 2)
+    for k in np.nonzero(~(out >= CHAN_ARRAY_FLOOR))[0]:
+        out[k] = pc_chan(xm[k], ym[k], sx[k], sy[k], R[k])
+    return out
+
+
+def chan_reliable_many(xm, ym, sx, sy, R) -> np.ndarray:
+    """chan_is_reliable's verdict for many geometries (its reasons from the scalar test)."""
+    smin, smax = np.minimum(sx, sy), np.maximum(sx, sy)
+    v = (xm / sx) ** 2 + (ym / sy) ** 2
+    return (v <= CHAN_MAX_MISS_V) & (R <= CHAN_MAX_R_OVER_SIGMA * smin) & (smax / smin <= CHAN_MAX_ASPECT)
+
+
+# Our validity gate for Chan's equal-area approximation (engineering choices, checked against
+# quadrature in the tests): squared Mahalanobis miss, disk against the smaller sigma, aspect.
+CHAN_MAX_MISS_V = 1e6
+CHAN_MAX_R_OVER_SIGMA = 0.2
+CHAN_MAX_ASPECT = 20.0
+
+
 def chan_is_reliable(xm: float, ym: float, sx: float, sy: float, R: float) -> tuple[bool, str]:
-    """Our validity gate for Chan's equal-area approximation: the density must be nearly
-    constant across the disk along the narrow axis (R small against the smaller sigma) and the
-    aspect ratio moderate.  Outside the gate the reference method is used and we say so.
-    (The thresholds are our engineering choice, checked against quadrature in the tests.)"""
+    """The gate for Chan's series: the density must be nearly constant across the disk along
+    the narrow axis (R small against the smaller sigma) and the aspect ratio moderate.
+    Outside the gate the reference method is used and we say so."""
     smin, smax = min(sx, sy), max(sx, sy)
     v = (xm / sx) ** 2 + (ym / sy) ** 2
-    if v > 1e6:
+    if v > CHAN_MAX_MISS_V:
         return False, f"miss {math.sqrt(v):.0f} sigma out: the series is not needed"
-    if R > 0.2 * smin:
-        return False, f"hard-body radius {R:g} m exceeds 0.2 x the smaller sigma {smin:.1f} m"
-    if smax / smin > 20:
-        return False, f"covariance aspect ratio {smax / smin:.1f} above 20"
+    if R > CHAN_MAX_R_OVER_SIGMA * smin:
+        return False, f"hard-body radius {R:g} m exceeds {CHAN_MAX_R_OVER_SIGMA:g} x the smaller sigma {smin:.1f} m"
+    if smax / smin > CHAN_MAX_ASPECT:
+        return False, f"covariance aspect ratio {smax / smin:.1f} above {CHAN_MAX_ASPECT:g}"
     return True, "ok"
 
 
