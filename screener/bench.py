@@ -17,6 +17,7 @@ core, and (b) naive dense pair sampling, measured on a subset.
 from __future__ import annotations
 
 import argparse
+import contextlib
 import resource
 import time
 
@@ -116,6 +117,22 @@ def with_risk_and_store(res, folder: str, workers: int = 2, executor=None) -> di
     return {"risk_s": risk_s, "store_s": time.perf_counter() - t0}
 
 
+@contextlib.contextmanager
+def _pool(args):
+    """The Dask executor when there is one, else one spawn pool for the screening and the
+    risk stage, as `screener screen` and `screener run` use (started inside the timing)."""
+    if args.executor is not None or args.workers <= 1:
+        yield args.executor
+        return
+    from .workers import spawn_pool
+
+    pool = spawn_pool(args.workers)
+    try:
+        yield pool
+    finally:
+        pool.shutdown(wait=True, cancel_futures=True)
+
+
 def print_stages(res, extra: dict, wall_s: float) -> None:
     st = res.stats.get("task_stage_s", {})
     parts = "  ".join(f"{k} {v:.1f}" for k, v in st.items())
@@ -181,10 +198,11 @@ def main(argv=None) -> None:
 def run_fleet(args, prims, eng, cat, jd0, fr0, vol, tmp) -> None:
     print(f"== fleet: {len(prims)} primaries vs {len(cat)} objects, {args.fleet_days:g} days, 5 km")
     t0 = time.perf_counter()
-    res = screen(ScreeningRequest(catalog=cat, primaries=prims, jd0=jd0, fr0=fr0,
-                                  duration_s=args.fleet_days * 86400, volume=vol, workers=args.workers),
-                 executor=args.executor)
-    extra = with_risk_and_store(res, tmp, args.workers, args.executor)
+    with _pool(args) as ex:
+        res = screen(ScreeningRequest(catalog=cat, primaries=prims, jd0=jd0, fr0=fr0,
+                                      duration_s=args.fleet_days * 86400, volume=vol,
+                                      workers=args.workers), executor=ex)
+        extra = with_risk_and_store(res, tmp, args.workers, ex)
     wall = time.perf_counter() - t0
     cp1 = catalog_pass_s(cat, jd0, fr0, 1.0)
     cp = cp1 * args.fleet_days  # propagation cost is linear in samples: 1 day measured, scaled
@@ -255,9 +273,10 @@ def run_all_vs_all(args, sizes, prims, eng, cat, jd0, fr0, vol, tmp) -> None:
         eng_in = [e for e in eng if e in sub]
         print(f"== all-vs-all: {n} objects, 1 day, 5 km")
         t0 = time.perf_counter()
-        res = screen(ScreeningRequest(catalog=sub, jd0=jd0, fr0=fr0, duration_s=86400.0,
-                                      volume=vol, workers=args.workers), executor=args.executor)
-        extra = with_risk_and_store(res, tmp, args.workers, args.executor)
+        with _pool(args) as ex:
+            res = screen(ScreeningRequest(catalog=sub, jd0=jd0, fr0=fr0, duration_s=86400.0,
+                                          volume=vol, workers=args.workers), executor=ex)
+            extra = with_risk_and_store(res, tmp, args.workers, ex)
         wall = time.perf_counter() - t0
         cpn = catalog_pass_s(sub, jd0, fr0, 1.0)
         print(f"wall {wall:.1f} s  peak RSS {peak_rss_mb():.0f} MB  encounters {len(res.encounters)}  "

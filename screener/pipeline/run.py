@@ -142,7 +142,7 @@ def risk_in_workers(encs, oems, configured, history, radii, thresholds, workers:
     the element-set histories and radii of its own objects."""
     from concurrent.futures import as_completed
 
-    from ..risk.attach import risk_of_chunk
+    from ..risk.attach import pack_for_risk, risk_of_chunk
     from ..workers import result_of
 
     n_chunks = workers * RISK_CHUNKS_PER_WORKER
@@ -158,7 +158,7 @@ def risk_in_workers(encs, oems, configured, history, radii, thresholds, workers:
         for chunk in chunks:
             mine = {e.primary for e in chunk} | {e.secondary for e in chunk}
             hist = {k: v for k, v in (history or {}).items() if k in mine}
-            futures[executor.submit(risk_of_chunk, chunk, oems, configured, hist,
+            futures[executor.submit(risk_of_chunk, pack_for_risk(chunk), oems, configured, hist,
                                     {k: radii[k] for k in mine}, thresholds)] = chunk
         done = 0
         for fut in as_completed(futures):
@@ -209,6 +209,7 @@ def execute(cfg: Config, store=None, progress: Progress | None = None, cancel=No
 
     now = now or dt.datetime.now(dt.timezone.utc)
     started = iso_z(dt.datetime.now(dt.timezone.utc), 3)
+    pool = None
     report = progress or (lambda stage, done, total: None)
     log, log_path = (None, None)
     if store is not None:
@@ -252,6 +253,11 @@ def execute(cfg: Config, store=None, progress: Progress | None = None, cancel=No
 
             client, executor = connect(cfg.dask_scheduler, cfg.dask_tls, cfg.dask_allow_plain_tcp)
             note(f"running tasks on the Dask cluster at {cfg.dask_scheduler}")
+        elif executor is None and cfg.workers > 1:
+            from ..workers import spawn_pool
+
+            # one pool for the screening's tasks and the risk chunks: its workers start once
+            pool = executor = spawn_pool(cfg.workers)
         try:
             result = screen(req, progress=report, cancel=cancel, executor=executor)
         finally:
@@ -270,6 +276,9 @@ def execute(cfg: Config, store=None, progress: Progress | None = None, cancel=No
         t_risk = time.perf_counter()
         add_risk(cfg, inputs, result, progress=report,
                  executor=executor if client is None else None)
+        if pool is not None:
+            pool.shutdown(wait=True)
+            pool = None
         stages["risk_s"] = time.perf_counter() - t_risk
         result.stats["stages"] = stages
         report("risk", n_enc, n_enc)
@@ -304,6 +313,8 @@ def execute(cfg: Config, store=None, progress: Progress | None = None, cancel=No
         note("interrupted; nothing stored for this run")
         raise
     finally:
+        if pool is not None:     # a failed or cancelled run: its workers go with it
+            pool.shutdown(wait=True, cancel_futures=True)
         if log:
             for h in list(log.handlers):
                 h.close()
