@@ -30,18 +30,14 @@ def _geometry(r1_km, v1_km_s, cov1_rtn_km2, r2_km, v2_km_s, cov2_rtn_km2):
     return project(rho, w, c), rho, w
 
 
-CHAN_METHOD = "Chan series"
-
-
-def _chosen(args, pc_ref: float | None = None) -> tuple[float, str]:
-    """The Pc every output reports: Chan's series where it is reliable, else the quadrature."""
-    if chan_is_reliable(*args)[0]:
-        return pc_chan(*args), CHAN_METHOD
-    return _quadrature_instead(args, pc_quadrature(*args) if pc_ref is None else pc_ref)
-
-
-def _quadrature_instead(args, pc_ref: float) -> tuple[float, str]:
-    return pc_ref, f"2-D quadrature (Chan not used: {chan_is_reliable(*args)[1]})"
+def _chosen(args, pc_ref: float | None = None, chan_pc: float | None = None) -> tuple[float, str]:
+    """The Pc every output reports: Chan's series where it is reliable, else the quadrature
+    (either given when already computed for many encounters at once)."""
+    ok, why = chan_is_reliable(*args)
+    if ok:
+        return (pc_chan(*args) if chan_pc is None else chan_pc), "Chan series"
+    pc_ref = pc_quadrature(*args) if pc_ref is None else pc_ref
+    return pc_ref, f"2-D quadrature (Chan not used: {why})"
 
 
 def pc_2d(r1_km, v1_km_s, cov1_rtn_km2, r2_km, v2_km_s, cov2_rtn_km2, hbr_m: float) -> float:
@@ -76,10 +72,7 @@ def assess_many(items) -> list[dict]:
     out = []
     for n, (g, it) in enumerate(zip(geos, items)):
         hbr_m, source = it[6], it[7]
-        if chan_ok[n]:
-            pc, method = float(chan[n]), CHAN_METHOD
-        else:
-            pc, method = _quadrature_instead((g.xm_m, g.ym_m, g.sx_m, g.sy_m, hbr_m), float(pc_ref[n]))
+        pc, method = _chosen((g.xm_m, g.ym_m, g.sx_m, g.sy_m, hbr_m), float(pc_ref[n]), float(chan[n]))
         out.append(_result(g, rhos[n], ws[n], hbr_m, source, pc, method, float(pc_ref[n]),
                            float(worst[n]), bool(dilution[n])))
     return out

@@ -108,8 +108,7 @@ def pc_max_scaled_many(xm, ym, sx, sy, R) -> tuple[np.ndarray, np.ndarray]:
     k_star = np.sqrt(np.maximum(v, 1e-300) / 2.0)
     failed = _max_by_vertex(np.nonzero(~inside)[0], np.log(k_star), xm, ym, sx, sy, R,
                             best_pc, best_k)
-    _max_over_rows(failed, lambda r: np.broadcast_to(SCALE_GRID, (len(r), len(SCALE_GRID))),
-                   xm, ym, sx, sy, R, d, best_pc, best_k)
+    _max_over_rows(failed, xm, ym, sx, sy, R, d, best_pc, best_k)
     return best_pc, best_k
 
 
@@ -144,7 +143,7 @@ def _max_by_vertex(rows, log_k0, xm, ym, sx, sy, R, best_pc, best_k) -> np.ndarr
                 curv = g[:, 2] - 2.0 * g[:, 1] + g[:, 0]
                 shift = h * (g[:, 0] - g[:, 2]) / (2.0 * curv)
             good &= np.isfinite(g).all(axis=1) & (curv < 0) & (np.abs(shift) <= h)
-            c = np.where(good, c + np.where(good, shift, 0.0), c)
+            c = c + np.where(good, shift, 0.0)
         ks = np.exp(np.where(good, c, 0.0))
         top = _fixed_rows(xm[r], ym[r], sx[r] * ks, sy[r] * ks, R[r])
         good &= np.isfinite(top) & (top > 0)
@@ -153,16 +152,16 @@ def _max_by_vertex(rows, log_k0, xm, ym, sx, sy, R, best_pc, best_k) -> np.ndarr
     return np.concatenate(failed).astype(int) if failed else np.empty(0, int)
 
 
-def _max_over_rows(rows, grid_of, xm, ym, sx, sy, R, d, best_pc, best_k) -> None:
-    """Grid, then golden section inside the best grid point's bracket, for the given rows
-    (in place into best_pc, best_k)."""
+def _max_over_rows(rows, xm, ym, sx, sy, R, d, best_pc, best_k) -> None:
+    """SCALE_GRID, then golden section inside the best grid point's bracket, for the given
+    rows (in place into best_pc, best_k)."""
     if not len(rows):
         return
-    width = grid_of(rows[:1]).shape[1]
+    width = len(SCALE_GRID)
     step = max(1, BATCH_ROWS // width)
     for a in range(0, len(rows), step):
         r = rows[a:a + step]
-        LG = grid_of(r)
+        LG = np.broadcast_to(SCALE_GRID, (len(r), width))
         ks = np.exp(LG)
         gx, gy = sx[r, None] * ks, sy[r, None] * ks
         XM, YM, RR = (np.broadcast_to(v[r, None], ks.shape) for v in (xm, ym, R))
@@ -256,18 +255,18 @@ def pc_chan_many(xm, ym, sx, sy, R) -> np.ndarray:
     return out
 
 
-def chan_reliable_many(xm, ym, sx, sy, R) -> np.ndarray:
-    """chan_is_reliable's verdict for many geometries (its reasons from the scalar test)."""
-    smin, smax = np.minimum(sx, sy), np.maximum(sx, sy)
-    v = (xm / sx) ** 2 + (ym / sy) ** 2
-    return (v <= CHAN_MAX_MISS_V) & (R <= CHAN_MAX_R_OVER_SIGMA * smin) & (smax / smin <= CHAN_MAX_ASPECT)
-
-
 # Our validity gate for Chan's equal-area approximation (engineering choices, checked against
 # quadrature in the tests): squared Mahalanobis miss, disk against the smaller sigma, aspect.
 CHAN_MAX_MISS_V = 1e6
 CHAN_MAX_R_OVER_SIGMA = 0.2
 CHAN_MAX_ASPECT = 20.0
+
+
+def chan_reliable_many(xm, ym, sx, sy, R) -> np.ndarray:
+    """chan_is_reliable's verdict for many geometries (its reasons from the scalar test)."""
+    smin, smax = np.minimum(sx, sy), np.maximum(sx, sy)
+    v = (xm / sx) ** 2 + (ym / sy) ** 2
+    return (v <= CHAN_MAX_MISS_V) & (R <= CHAN_MAX_R_OVER_SIGMA * smin) & (smax / smin <= CHAN_MAX_ASPECT)
 
 
 def chan_is_reliable(xm: float, ym: float, sx: float, sy: float, R: float) -> tuple[bool, str]:

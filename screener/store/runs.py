@@ -3,7 +3,6 @@
 from __future__ import annotations
 
 import json
-import math
 import os
 import sys
 import time
@@ -132,8 +131,7 @@ def _record_json(data: dict) -> str:
 
 
 def _jsonable(x):
-    if isinstance(x, float) and not math.isfinite(x):
-        return None
+    """What orjson cannot write itself: other array types as lists, anything else as text."""
     if hasattr(x, "tolist"):
         return x.tolist()
     return str(x)
