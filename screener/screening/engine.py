@@ -28,7 +28,7 @@ from .encounter import (SLOW_RELATIVE_SPEED_KM_S, Encounter, add_range_profiles,
 from .filters import apogee_perigee_mask, bounds_array, radial_bounds_km
 from .refine import brackets_from_candidates, crossing_times, solve_tcas
 from .ric import to_ric
-from .sieve import fleet_candidates, kd_candidates, top_speeds
+from .sieve import all_pairs_candidates, fleet_candidates, top_speeds
 from .volume import Volume
 
 # Grid steps.  Cubic Hermite midpoint error measured against SGP4 over one day:
@@ -42,9 +42,10 @@ FLEET_STEP_S = 240.0
 ALL_VS_ALL_STEP_S = 120.0
 FLOAT32_PAD_KM = 0.01        # single-precision rounding in the fleet sieve, generous
 INTERP_MARGIN_KM = 2.0        # added to the volume's bounding radius in both coarse stages
-KD_SUBSTEPS = 4               # spatial-index samples per grid interval (all-vs-all) ...
+KD_SUBSTEPS = 4               # cell-search instants per grid interval (all-vs-all) ...
 KD_SUBSTEPS_SMALL = 2         # ... and for a task of fewer objects than KD_SMALL_OBJECTS, where
-KD_SMALL_OBJECTS = 15_000     # the index builds cost more than the pairs they save (measured)
+KD_SMALL_OBJECTS = 15_000     # each instant's fixed cost (binning every object) outweighs the
+                              # candidates it saves (measured, DEVELOPERS.md)
 MAX_SECONDARIES_PER_TASK = 4000
 # Planned peak memory of one task, so that a task fits a 4 GB worker: an all-vs-all span holds
 # every object's states, so large catalogs get more, shorter spans.  Measured (DEVELOPERS.md):
@@ -187,8 +188,8 @@ def run_task(task: Task) -> TaskResult:
     brackets = []
     t_sieve = time.perf_counter()
     if task.all_vs_all:
-        trip = kd_candidates(r, v, usable, h, reach,
-                             KD_SUBSTEPS if len(pop) >= KD_SMALL_OBJECTS else KD_SUBSTEPS_SMALL)
+        trip = all_pairs_candidates(r, v, usable, h, reach,
+                                    KD_SUBSTEPS if len(pop) >= KD_SMALL_OBJECTS else KD_SUBSTEPS_SMALL)
         stats["candidates"] = len(trip)
         brackets = brackets_from_candidates(t, r, v, trip[:, 0], trip[:, 1], trip[:, 2], reach, row_of)
     else:
