@@ -195,7 +195,7 @@ def test_geodetic_height_against_skyfield_wgs84():
     wgs84 (reference library) for states of a verification satellite, to 1 m and 1e-6 deg."""
     from skyfield.api import EarthSatellite, load, wgs84
 
-    from screener.propagation.frames import geodetic
+    from screener.propagation.frames import geodetic, height_km
 
     l1 = "1 00005U 58002B   00179.78495062  .00000023  00000-0  28098-4 0  4753"
     l2 = "2 00005  34.2682 348.7242 1859667 331.7664  19.3264 10.82419157413667"
@@ -211,3 +211,5 @@ def test_geodetic_height_against_skyfield_wgs84():
     assert np.max(np.abs(lat - sub.latitude.degrees)) < 1e-6
     dlon = (lon - sub.longitude.degrees + 180.0) % 360.0 - 180.0
     assert np.max(np.abs(dlon)) < 1e-6
+    # the height straight from TEME positions (no frame rotation) is the same height
+    assert np.max(np.abs(height_km(r[0]) - sub.elevation.km)) < ONE_METRE_KM

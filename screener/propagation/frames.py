@@ -113,6 +113,14 @@ def geodetic(r_teme_km: np.ndarray, jd0: float, fr0: float, t_s: np.ndarray):
     return np.degrees(lat), np.degrees(lon), h
 
 
+def height_km(r_km: np.ndarray) -> np.ndarray:
+    """WGS-84 geodetic height (km) of positions (m,3) in TEME or ITRS alike: the two differ by
+    a rotation about the pole (skyfield's built-in timescale applies no polar motion), which
+    leaves the distance from the axis and z, and so the height, unchanged; no frame call."""
+    r_km = np.atleast_2d(np.asarray(r_km, float))
+    return _geodetic_plain(r_km.T)[2]
+
+
 def _geodetic_plain(x_km: np.ndarray):
     """Iterative WGS-84 geodetic conversion of ITRS (3, m) km; converges in a few steps."""
     a = 6378.137

@@ -124,15 +124,12 @@ def make_encounters(pop, i: np.ndarray, j: np.ndarray, tca_s: np.ndarray, jd0: f
 
 
 def fill_altitudes(encounters: list[Encounter]) -> None:
-    """Geodetic altitudes at TCA for both objects, one vectorised frame call."""
+    """Geodetic altitudes at TCA for both objects (`frames.height_km`, straight from TEME)."""
     if not encounters:
         return
-    from ..propagation.frames import geodetic
+    from ..propagation.frames import height_km
 
-    jd0, fr0 = encounters[0].window_jd, encounters[0].window_fr
-    t = np.array([e.tca_s for e in encounters] * 2)
-    r = np.array([e.primary_r_km for e in encounters] + [e.secondary_r_km for e in encounters])
-    _, _, h = geodetic(r, jd0, fr0, t)
+    h = height_km([e.primary_r_km for e in encounters] + [e.secondary_r_km for e in encounters])
     n = len(encounters)
     for k, e in enumerate(encounters):
         e.primary_alt_km = float(h[k])
