@@ -144,15 +144,22 @@ def grid_pairs(r, v, usable, h_s, reach_km, substeps, slow_km_s, g_km_s2, margin
         vel = np.empty((q_n, 3))
         cell_of = np.empty(len(slow), np.int64)
         order = np.empty(len(slow), np.int64)
+        spos = np.empty((len(slow), 3))
+        svel = np.empty((len(slow), 3))
+        ss = np.empty(len(slow))
         for q in range(substeps):
             _hermite_at((q + 0.5) / substeps, h_s, r0, v0, r1, v1, pos, vel)
             _bin(pos, slow, cell_km, cell_of, counts, starts, order)
+            # the slow rows in bin order, so that a cell's rows are contiguous in memory
+            for e in range(len(slow)):
+                spos[e] = pos[order[e]]
+                svel[e] = vel[order[e]]
+                ss[e] = s[order[e]]
             # slow x slow: each occupied cell against itself and its half-space neighbours
             for e0 in range(len(slow)):
-                a0 = order[e0]
-                ax = int(math.floor(pos[a0, 0] / cell_km))
-                ay = int(math.floor(pos[a0, 1] / cell_km))
-                az = int(math.floor(pos[a0, 2] / cell_km))
+                ax = int(math.floor(spos[e0, 0] / cell_km))
+                ay = int(math.floor(spos[e0, 1] / cell_km))
+                az = int(math.floor(spos[e0, 2] / cell_km))
                 own = ((ax & (WRAP - 1)) * WRAP + (ay & (WRAP - 1))) * WRAP + (az & (WRAP - 1))
                 if e0 != starts[own]:
                     continue            # the cell is taken from its first row
@@ -162,12 +169,10 @@ def grid_pairs(r, v, usable, h_s, reach_km, substeps, slow_km_s, g_km_s2, margin
                     bz = (az + half_cells[o, 2]) & (WRAP - 1)
                     other = (bx * WRAP + by) * WRAP + bz
                     for ea in range(starts[own], starts[own + 1]):
-                        a = order[ea]
                         eb0 = ea + 1 if other == own else starts[other]
                         for eb in range(eb0, starts[other + 1]):
-                            b = order[eb]
-                            if _test(a, b, pos, vel, s, reach_km, half, lim2):
-                                out, n_out = _push(out, n_out, idx[a], idx[b], k)
+                            if _test(ea, eb, spos, svel, ss, reach_km, half, lim2):
+                                out, n_out = _push(out, n_out, idx[order[ea]], idx[order[eb]], k)
             # fast x slow: a block of cells wide enough for the fast one's radius
             for a in fast:
                 ka = int(math.ceil((reach_km + s[a] * dt) / cell_km))
