@@ -103,7 +103,7 @@ def commit_run(store: Store, *, name: str, config_snapshot: dict, inputs_files: 
                                     "pc": m.prev["pc"], "tca": m.prev["tca_utc"],
                                     "attention": m.prev["attention"]}
             rows.append((run_id, m.event_id, e.primary, e.primary_name, e.secondary, e.secondary_name,
-                         iso_z(e.tca, 6), t, e.miss_km, e.radial_km, e.in_track_km, e.cross_track_km,
+                         data["tca"], t, e.miss_km, e.radial_km, e.in_track_km, e.cross_track_km,
                          e.relative_speed_km_s, rk["pc"], rk.get("log10_pc"), rk["pc_max"],
                          rk["attention"], rank, rk["covariance_source"], int(rk["dilution_region"]),
                          tr, ch, _record_json(data), rk.get("flags", "")))
