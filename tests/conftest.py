@@ -36,6 +36,15 @@ def ours_store(store):
     return store
 
 
+def pytest_sessionstart(session):
+    """The all-vs-all cell search compiled (or loaded from numba's cache) once, before any
+    test: the screenings that tests start in subprocesses and worker pools then load it
+    instead of compiling it inside a command with a timeout."""
+    from screener.screening.cells import warm
+
+    warm()
+
+
 # Inputs tried by each fuzzing test (filled by the tests, printed at the end of the run)
 FUZZ_COUNTS: dict[str, int] = {}
 
