@@ -37,10 +37,10 @@ def ours_store(store):
 
 
 def pytest_sessionstart(session):
-    """The all-vs-all cell search compiled (or loaded from numba's cache) once, before any
-    test: the screenings that tests start in subprocesses and worker pools then load it
-    instead of compiling it inside a command with a timeout."""
-    from screener.screening.cells import warm
+    """The compiled sieves built (or loaded from numba's cache) once, before any test: the
+    screenings that tests start in subprocesses and worker pools then load them instead of
+    compiling them inside a command with a timeout."""
+    from screener.screening.sieve import warm
 
     warm()
 

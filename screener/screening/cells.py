@@ -195,10 +195,3 @@ def grid_pairs(r, v, usable, h_s, reach_km, substeps, slow_km_s, g_km_s2, margin
                         out, n_out = _push(out, n_out, idx[fast[ea]], idx[fast[eb]], k)
     return out[:n_out]
 
-
-def warm() -> None:
-    """Compile the search now (or load it from numba's cache): `make` calls this after
-    installing, so that the first screening does not spend about 7 s compiling."""
-    r = np.zeros((2, 2, 3))
-    r[1] += 1.0
-    grid_pairs(r, np.ones((2, 2, 3)), np.ones((2, 2), bool), 120.0, 7.0, 2, 8.6, 9.81e-3, 0.1)

@@ -40,7 +40,6 @@ from .volume import Volume
 # radius grows with the step, and candidates with the radius squared.
 FLEET_STEP_S = 240.0
 ALL_VS_ALL_STEP_S = 120.0
-FLOAT32_PAD_KM = 0.01        # single-precision rounding in the fleet sieve, generous
 INTERP_MARGIN_KM = 2.0        # added to the volume's bounding radius in both coarse stages
 KD_SUBSTEPS = 4               # cell-search instants per grid interval (all-vs-all) ...
 KD_SUBSTEPS_SMALL = 2         # ... and for a task of fewer objects than KD_SMALL_OBJECTS, where
@@ -194,16 +193,13 @@ def run_task(task: Task) -> TaskResult:
         brackets = brackets_from_candidates(t, r, v, trip[:, 0], trip[:, 1], trip[:, 2], reach, row_of)
     else:
         s_arr = np.array(s_rows, int)
-        # the sieve is a bound with a 2 km margin: single precision (0.5 m at 7,000 km) halves
-        # its memory traffic without weakening it
-        r32, v32 = r.astype(np.float32), v.astype(np.float32)
         if len(s_arr):
             s_bounds = bounds_array(bounds)
-            s_top = top_speeds(v32[s_arr])
+            s_top = top_speeds(v[s_arr])
         # a filled secondary's fine states are two-body from the nearest exact sample: its
         # reach grows by the fill's position bound and, for the range-rate term h W / 2, by
         # h times its velocity bound over 2
-        s_reach = reach + FLOAT32_PAD_KM + np.where(filled[s_arr], fill_pos_km + h * fill_vel_km_s / 2.0, 0.0)
+        s_reach = reach + np.where(filled[s_arr], fill_pos_km + h * fill_vel_km_s / 2.0, 0.0)
         n_cand = 0
         filter_s = 0.0
         cand = []
@@ -218,8 +214,8 @@ def run_task(task: Task) -> TaskResult:
             filter_s += time.perf_counter() - t_f
             if not len(ss):
                 continue
-            si, kk = fleet_candidates(r32[p], v32[p], r32[ss], v32, usable[ss] & usable[p][None], h,
-                                      s_reach[mask], s_top[mask], rows=ss)
+            si, kk = fleet_candidates(r[p], v[p], usable[p], r, v, usable, ss, h, s_reach[mask],
+                                      s_top[mask])
             n_cand += len(si)
             cand.append((np.full(len(si), p), ss[si], kk))
         if cand:

@@ -23,40 +23,26 @@ def top_speeds(v: np.ndarray) -> np.ndarray:
         return np.nanmax(np.sqrt(np.einsum("nmi,nmi->nm", v, v)), axis=1, initial=0.0)
 
 
-def fleet_candidates(rp: np.ndarray, vp: np.ndarray, rs: np.ndarray, vs: np.ndarray,
-                     usable: np.ndarray, h_s: float, reach_km,
-                     s_top_speed: np.ndarray | None = None,
-                     rows: np.ndarray | None = None) -> tuple[np.ndarray, np.ndarray]:
-    """One primary (m,3) against secondaries (n,m,3).  Returns (secondary index, interval index)
-    of every interval whose lower bound on range is <= reach_km (one value, or one per
-    secondary) and whose ends are usable.  s_top_speed: the secondaries' top_speeds, when the
-    caller has them for many primaries; rows: the secondaries' rows of vs when vs holds more
-    objects (not copied)."""
-    reach = np.broadcast_to(np.asarray(reach_km, float), (len(rs),))
-    rho = rs - rp[None]
-    d = np.sqrt(np.einsum("nmi,nmi->nm", rho, rho))
-    ok = usable[:, :-1] & usable[:, 1:]
-    # first with each secondary's largest relative speed over the span (|v_s| + |v_p|, a
-    # bound on every interval's W): it only needs the ranges, and the exact test below runs
-    # on the few intervals it lets through
-    if s_top_speed is None:
-        s_top_speed = top_speeds(vs if rows is None else vs[rows])
-    w_top = s_top_speed + top_speeds(vp[None])[0]
-    with np.errstate(invalid="ignore"):
-        d_sum = d[:, :-1] + d[:, 1:]
-        maybe = (0.5 * (d_sum - h_s * (w_top[:, None] + ACCEL_BOUND_KM_S2 * h_s / 2.0)) <= reach[:, None]) & ok
-    n_idx, k_idx = np.nonzero(maybe)
-    if not len(n_idx):
-        return n_idx, k_idx
-    vrow = n_idx if rows is None else rows[n_idx]
-    w0 = vs[vrow, k_idx] - vp[k_idx]
-    w1 = vs[vrow, k_idx + 1] - vp[k_idx + 1]
-    w_end = np.maximum(np.sqrt(np.einsum("ni,ni->n", w0, w0)), np.sqrt(np.einsum("ni,ni->n", w1, w1)))
-    ds = d_sum[n_idx, k_idx]
-    W = w_end + ACCEL_BOUND_KM_S2 * h_s / 2.0
-    lb = 0.5 * (ds - h_s * W)
-    hit = lb <= reach[n_idx]
-    return n_idx[hit], k_idx[hit]
+def fleet_candidates(rp: np.ndarray, vp: np.ndarray, usable_p: np.ndarray, r: np.ndarray,
+                     v: np.ndarray, usable: np.ndarray, rows: np.ndarray, h_s: float,
+                     reach_km, s_top_speed: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """One primary (m,3) against the secondaries rows of r, v (N,m,3).  Returns (index into
+    rows, interval index) of every interval whose lower bound on range is <= reach_km (one
+    value, or one per row) and whose ends are usable for both.  s_top_speed: the rows'
+    top_speeds.  First with each secondary's largest relative speed over the span
+    (|v_s| + |v_p|, a bound on every interval's W), then with the end speeds on the intervals
+    that pass (`fleet_scan.fleet_scan`, compiled: each sample's range computed once)."""
+    from .fleet_scan import fleet_scan      # numba compiles (or loads) it on first use
+
+    rows = np.asarray(rows, np.int64)
+    reach = np.ascontiguousarray(np.broadcast_to(np.asarray(reach_km, float), (len(rows),)))
+    if not len(rows):
+        return np.empty(0, np.int64), np.empty(0, np.int64)
+    p_top = float(top_speeds(vp[None])[0])
+    out = fleet_scan(np.ascontiguousarray(rp), np.ascontiguousarray(vp),
+                     np.ascontiguousarray(usable_p, bool), r, v, usable, rows, float(h_s), reach,
+                     np.ascontiguousarray(s_top_speed, float), p_top, ACCEL_BOUND_KM_S2)
+    return out[:, 0], out[:, 1]
 
 
 # Over +-dt/2 around a substep the relative path departs from its tangent line by at most
@@ -91,3 +77,15 @@ def all_pairs_candidates(r: np.ndarray, v: np.ndarray, usable: np.ndarray, h_s: 
     key = np.unique((rows[:, 2] * n + rows[:, 0]) * n + rows[:, 1])
     pair, k = key % (n * n), key // (n * n)
     return np.stack([pair // n, pair % n, k], axis=1)
+
+
+def warm() -> None:
+    """Compile both compiled sieves now (or load them from numba's cache): `make` calls this
+    after installing, so that the first screening does not spend about 10 s compiling."""
+    r = np.zeros((2, 2, 3))
+    r[1] += 1.0
+    v = np.ones((2, 2, 3))
+    usable = np.ones((2, 2), bool)
+    all_pairs_candidates(r, v, usable, 120.0, 7.0, 2)
+    fleet_candidates(r[0], v[0], usable[0], r, v, usable, np.array([1]), 240.0, 7.0,
+                     top_speeds(v[1:]))

@@ -1,12 +1,16 @@
-"""The all-vs-all sieve's compiled cell search against a brute-force reference built from scipy.
+"""Both coarse sieves against references outside the project.
 
-For every grid interval and sample instant the reference takes every pair of objects
-(scipy.spatial.distance.pdist for the distances at the instant) and finds each pair's closest
-straight-line approach over +-dt/2 with scipy.optimize.minimize_scalar (bounded, xatol 1e-9);
-a pair is expected when both tests of `screening.cells` hold.  The objects are placed to make
-the search's hard cases happen: clusters that straddle cell boundaries, fast objects (speed
-bound above `sieve.SLOW_SPEED_KM_S`) that scan wider blocks, objects exactly one wrap period
-(`cells.WRAP` cells) apart that share bins without being close, and unusable samples.
+All-vs-all (`screening.cells`): for every grid interval and sample instant the reference takes
+every pair of objects (scipy.spatial.distance.pdist for the distances at the instant) and finds
+each pair's closest straight-line approach over +-dt/2 with scipy.optimize.minimize_scalar
+(bounded, xatol 1e-9); a pair is expected when both tests of `screening.cells` hold.  The
+objects are placed to make the search's hard cases happen: clusters that straddle cell
+boundaries, fast objects (speed bound above `sieve.SLOW_SPEED_KM_S`) that scan wider blocks,
+objects exactly one wrap period (`cells.WRAP` cells) apart that share bins without being close,
+and unusable samples.
+
+Fleet (`screening.fleet_scan`): every interval in which the sgp4 library, sampled every second,
+brings a secondary within reach of the primary must be kept.
 """
 
 from __future__ import annotations
@@ -109,3 +113,44 @@ def test_rows_sorted_and_unique():
     rows = sieve.all_pairs_candidates(r, v, usable, H_S, REACH_KM, 4)
     key = (rows[:, 2] * len(r) + rows[:, 0]) * len(r) + rows[:, 1]
     assert (np.diff(key) > 0).all() and (rows[:, 0] < rows[:, 1]).all()
+
+
+def test_fleet_sieve_keeps_every_interval_sgp4_brings_within_reach():
+    """The fleet sieve's bound against the sgp4 library sampled every second: every 240 s
+    interval in which the true range (sgp4's own SatrecArray, 1 s steps) falls within reach
+    must be kept, for head-on, crossing and slow encounters and a background."""
+    from sgp4.api import SatrecArray
+
+    from screener import synth
+    from screener.timeutil import datetime_to_jd, parse_iso
+
+    from .test_screening_reference import reference_satrec
+
+    jd0, fr0 = datetime_to_jd(parse_iso("2026-12-02T00:00:00Z"))
+    rng = np.random.default_rng(5)
+    prim = synth.circular("90000001", "P", 550.0, 53.0, 10.0, 20.0, jd0, fr0 - 0.2)
+    secs = [synth.engineer(prim, jd0, fr0 + rng.uniform(0.03, 0.22), f"E{k}", f"E{k}",
+                           ("head-on", "crossing", "slow", "gto")[k % 4],
+                           miss_km=rng.uniform(0.5, 20.0), rng=rng) for k in range(16)]
+    secs += synth.background_catalog(120, jd0, fr0, seed=6, id_of=lambda k: f"B{k}")
+    sats = SatrecArray([reference_satrec(x) for x in [prim] + secs])
+    h_s, window_s, reach_km = 240.0, 0.25 * 86400.0, 25.0
+    grid = np.arange(0.0, window_s + 1.0, h_s)
+    e, r, v = sats.sgp4(np.full(len(grid), jd0), fr0 + grid / 86400.0)
+    fine = np.arange(0.0, window_s + 0.5, 1.0)
+    ef, rf, _ = sats.sgp4(np.full(len(fine), jd0), fr0 + fine / 86400.0)
+    usable = e == 0
+    rows = np.arange(1, len(secs) + 1)
+    top = sieve.top_speeds(np.where(usable[..., None], v, np.nan)[rows])
+    si, kk = sieve.fleet_candidates(r[0], v[0], usable[0], r, v, usable, rows, h_s, reach_km, top)
+    kept = set(zip(rows[si].tolist(), kk.tolist()))
+    rng_km = np.linalg.norm(rf[1:] - rf[0][None], axis=2)
+    rng_km[(ef[1:] != 0) | (ef[0] != 0)[None]] = np.inf
+    close = 0
+    for j, t_idx in zip(*np.nonzero(rng_km <= reach_km)):
+        k = min(int(fine[t_idx] // h_s), len(grid) - 2)
+        if usable[0, k] and usable[0, k + 1] and usable[j + 1, k] and usable[j + 1, k + 1]:
+            assert (j + 1, k) in kept, (j + 1, k, float(rng_km[j, t_idx]))
+            close += 1
+    assert close > 100                      # the encounters are there to be kept
+    assert len(kept) < 0.2 * len(rows) * (len(grid) - 1)     # and the bound prunes
