@@ -195,7 +195,7 @@ def run_task(task: Task) -> TaskResult:
         s_arr = np.array(s_rows, int)
         if len(s_arr):
             s_bounds = bounds_array(bounds)
-            s_top = top_speeds(v[s_arr])
+            s_top = top_speeds(v)[s_arr]      # no copy of the rows
         # a filled secondary's fine states are two-body from the nearest exact sample: its
         # reach grows by the fill's position bound and, for the range-rate term h W / 2, by
         # h times its velocity bound over 2
