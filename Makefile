@@ -14,7 +14,7 @@ $(BIN)/python:
 
 $(STAMP): $(BIN)/python pyproject.toml
 	$(BIN)/python -m pip install --quiet -e .
-	$(BIN)/python -c 'from screener.screening.sieve import warm; warm()'
+	$(BIN)/python -m screener.warmup
 	touch $@
 
 $(TEST_STAMP): $(STAMP)

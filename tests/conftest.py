@@ -37,10 +37,10 @@ def ours_store(store):
 
 
 def pytest_sessionstart(session):
-    """The compiled sieves built (or loaded from numba's cache) once, before any test: the
+    """The numba functions compiled (or loaded from numba's cache) once, before any test: the
     screenings that tests start in subprocesses and worker pools then load them instead of
     compiling them inside a command with a timeout."""
-    from screener.screening.sieve import warm
+    from screener.warmup import warm
 
     warm()
 

@@ -29,6 +29,7 @@ from __future__ import annotations
 import math
 
 import numpy as np
+from numba import njit
 
 from ..constants import MU_EARTH_KM3_S2 as MU
 from ..constants import RE_WGS72_KM
@@ -51,7 +52,6 @@ def fill_pads(tau_max_s: float) -> tuple[float, float]:
     return pos, vel
 
 
-KEPLER_CHUNK_ROWS = 16_384         # rows per array pass: its temporaries stay in cache (measured)
 KEPLER_TOL_RAD = 1e-13
 
 
@@ -59,40 +59,44 @@ def kepler_states(r0_km: np.ndarray, v0_km_s: np.ndarray, tau_s: np.ndarray):
     """Two-body states tau_s after (r0, v0): arrays (n, 3), (n, 3), (n,) -> r, v (n, 3).
     Elliptic orbits; Kepler's equation in the difference of eccentric anomaly (well posed for
     near-circular orbits), by Newton's method from dE = dM until its steps are under
-    KEPLER_TOL_RAD (3 steps near-circular, 5 at e = 0.25; at most KEPLER_ITERATIONS)."""
-    r0 = np.asarray(r0_km, float)
-    v0 = np.asarray(v0_km_s, float)
-    tau = np.asarray(tau_s, float)
+    KEPLER_TOL_RAD (3 steps near-circular, 5 at e = 0.25; at most KEPLER_ITERATIONS); one
+    compiled loop over the rows (numba)."""
+    r0 = np.ascontiguousarray(r0_km, float).reshape(-1, 3)
+    v0 = np.ascontiguousarray(v0_km_s, float).reshape(-1, 3)
+    tau = np.ascontiguousarray(np.broadcast_to(np.asarray(tau_s, float), (len(r0),)))
     r = np.empty_like(r0)
     v = np.empty_like(v0)
-    for a in range(0, len(r0), KEPLER_CHUNK_ROWS):
-        sl = slice(a, a + KEPLER_CHUNK_ROWS)
-        r[sl], v[sl] = _kepler_chunk(r0[sl], v0[sl], tau[sl])
+    _kepler_rows(r0, v0, tau, MU, KEPLER_ITERATIONS, KEPLER_TOL_RAD, r, v)
     return r, v
 
 
-def _kepler_chunk(r0, v0, tau):
-    r0m = np.sqrt(np.einsum("ni,ni->n", r0, r0))
-    inv_a = 2.0 / r0m - np.einsum("ni,ni->n", v0, v0) / MU
-    a = 1.0 / inv_a
-    n = np.sqrt(MU * inv_a**3)
-    ec = 1.0 - r0m * inv_a                                    # e cos E0
-    es = np.einsum("ni,ni->n", r0, v0) / np.sqrt(MU * a)      # e sin E0
-    dm = n * tau
-    de = dm.copy()
-    for _ in range(KEPLER_ITERATIONS):
-        s, c = np.sin(de), np.cos(de)
-        step = (de - ec * s + es * (1.0 - c) - dm) / (1.0 - ec * c + es * s)
-        de -= step
-        if not len(step) or np.abs(step).max() < KEPLER_TOL_RAD:
-            break
-    s, c = np.sin(de), np.cos(de)
-    f = 1.0 - a / r0m * (1.0 - c)
-    g = tau + (s - de) / n
-    rm = a * (1.0 - ec * c + es * s)
-    fd = -np.sqrt(MU * a) / (r0m * rm) * s
-    gd = 1.0 - a / rm * (1.0 - c)
-    return (f[:, None] * r0 + g[:, None] * v0, fd[:, None] * r0 + gd[:, None] * v0)
+@njit(cache=True, nogil=True, error_model="numpy")
+def _kepler_rows(r0, v0, tau, mu, iterations, tol, r, v):
+    for k in range(r0.shape[0]):
+        x, y, z = r0[k, 0], r0[k, 1], r0[k, 2]
+        vx, vy, vz = v0[k, 0], v0[k, 1], v0[k, 2]
+        r0m = math.sqrt(x * x + y * y + z * z)
+        inv_a = 2.0 / r0m - (vx * vx + vy * vy + vz * vz) / mu
+        a = 1.0 / inv_a
+        n = math.sqrt(mu * inv_a ** 3)
+        ec = 1.0 - r0m * inv_a                                   # e cos E0
+        es = (x * vx + y * vy + z * vz) / math.sqrt(mu * a)      # e sin E0
+        dm = n * tau[k]
+        de = dm
+        for _ in range(iterations):
+            s, c = math.sin(de), math.cos(de)
+            step = (de - ec * s + es * (1.0 - c) - dm) / (1.0 - ec * c + es * s)
+            de -= step
+            if abs(step) < tol:
+                break
+        s, c = math.sin(de), math.cos(de)
+        f = 1.0 - a / r0m * (1.0 - c)
+        g = tau[k] + (s - de) / n
+        rm = a * (1.0 - ec * c + es * s)
+        fd = -math.sqrt(mu * a) / (r0m * rm) * s
+        gd = 1.0 - a / rm * (1.0 - c)
+        r[k, 0], r[k, 1], r[k, 2] = f * x + g * vx, f * y + g * vy, f * z + g * vz
+        v[k, 0], v[k, 1], v[k, 2] = fd * x + gd * vx, fd * y + gd * vy, fd * z + gd * vz
 
 
 def coarse_indices(m: int, every: int = COARSE_EVERY) -> np.ndarray:

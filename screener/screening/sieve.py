@@ -78,14 +78,3 @@ def all_pairs_candidates(r: np.ndarray, v: np.ndarray, usable: np.ndarray, h_s: 
     pair, k = key % (n * n), key // (n * n)
     return np.stack([pair // n, pair % n, k], axis=1)
 
-
-def warm() -> None:
-    """Compile both compiled sieves now (or load them from numba's cache): `make` calls this
-    after installing, so that the first screening does not spend about 10 s compiling."""
-    r = np.zeros((2, 2, 3))
-    r[1] += 1.0
-    v = np.ones((2, 2, 3))
-    usable = np.ones((2, 2), bool)
-    all_pairs_candidates(r, v, usable, 120.0, 7.0, 2)
-    fleet_candidates(r[0], v[0], usable[0], r, v, usable, np.array([1]), 240.0, 7.0,
-                     top_speeds(v[1:]))

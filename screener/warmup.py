@@ -1,0 +1,30 @@
+"""Compile the numba functions now (or load them from numba's cache): the two coarse sieves
+and the two-body fill.  `make` runs this after installing and the test session before its
+first test, so that no screening spends the compile time (about 10 s) on its first call.
+
+    python -m screener.warmup
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+
+def warm() -> None:
+    from .propagation.kepler_fill import kepler_states
+    from .screening.sieve import all_pairs_candidates, fleet_candidates, top_speeds
+
+    r = np.zeros((2, 2, 3))
+    r[:, :, 0] = 7000.0
+    r[1] += 1.0
+    v = np.zeros((2, 2, 3))
+    v[:, :, 1] = 7.5
+    usable = np.ones((2, 2), bool)
+    all_pairs_candidates(r, v, usable, 120.0, 7.0, 2)
+    fleet_candidates(r[0], v[0], usable[0], r, v, usable, np.array([1]), 240.0, 7.0,
+                     top_speeds(v[1:]))
+    kepler_states(r[0], v[0], np.array([10.0, 20.0]))
+
+
+if __name__ == "__main__":
+    warm()
