@@ -16,18 +16,12 @@ from numba import njit
 
 
 @njit(cache=True, nogil=True)
-def _range(r, i, k, rp):
-    dx = np.float64(r[i, k, 0]) - rp[k, 0]
-    dy = np.float64(r[i, k, 1]) - rp[k, 1]
-    dz = np.float64(r[i, k, 2]) - rp[k, 2]
-    return math.sqrt(dx * dx + dy * dy + dz * dz)
-
-
-@njit(cache=True, nogil=True)
-def _rel_speed(v, i, k, vp):
-    dx = np.float64(v[i, k, 0]) - vp[k, 0]
-    dy = np.float64(v[i, k, 1]) - vp[k, 1]
-    dz = np.float64(v[i, k, 2]) - vp[k, 2]
+def _gap(x, i, k, xp):
+    """|x[i, k] - xp[k]| in double precision (a range from positions, a relative speed from
+    velocities)."""
+    dx = np.float64(x[i, k, 0]) - xp[k, 0]
+    dy = np.float64(x[i, k, 1]) - xp[k, 1]
+    dz = np.float64(x[i, k, 2]) - xp[k, 2]
     return math.sqrt(dx * dx + dy * dy + dz * dz)
 
 
@@ -49,13 +43,13 @@ def fleet_scan(rp, vp, usable_p, r, v, usable, rows, h_s, reach_km, s_top_km_s, 
     for e in range(n):
         i = rows[e]
         pad = h_s * (s_top_km_s[e] + p_top_km_s + half_dv)
-        d0 = _range(r, i, 0, rp64)
+        d0 = _gap(r, i, 0, rp64)
         ok0 = usable[i, 0] and usable_p[0]
         for k in range(m - 1):
-            d1 = _range(r, i, k + 1, rp64)
+            d1 = _gap(r, i, k + 1, rp64)
             ok1 = usable[i, k + 1] and usable_p[k + 1]
             if ok0 and ok1 and 0.5 * (d0 + d1 - pad) <= reach_km[e]:
-                w = max(_rel_speed(v, i, k, vp64), _rel_speed(v, i, k + 1, vp64)) + half_dv
+                w = max(_gap(v, i, k, vp64), _gap(v, i, k + 1, vp64)) + half_dv
                 if 0.5 * (d0 + d1 - h_s * w) <= reach_km[e]:
                     if n_out == cap:
                         cap *= 2
