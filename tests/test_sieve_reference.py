@@ -5,7 +5,7 @@ every pair of objects (scipy.spatial.distance.pdist for the distances at the ins
 each pair's closest straight-line approach over +-dt/2 with scipy.optimize.minimize_scalar
 (bounded, xatol 1e-9); a pair is expected when both tests of `screening.cells` hold.  The
 objects are placed to make the search's hard cases happen: clusters that straddle cell
-boundaries, fast objects (speed bound above `sieve.SLOW_SPEED_KM_S`) that scan wider blocks,
+boundaries, fast objects (speed bound above `sieve.SLOW_SPEED_KM_S` + g h/2) that scan wider blocks,
 objects exactly one wrap period (`cells.WRAP` cells) apart that share bins without being close,
 and unusable samples.
 
@@ -31,11 +31,13 @@ TWINS = (0, 1, 2)
 
 def _cell_km(v, usable, k, substeps):
     """The cell side `cells.grid_pairs` uses on interval k: reach plus the largest speed bound
-    of the slow objects times dt (its docstring)."""
+    of the slow objects (`sieve.all_pairs_candidates`: at most SLOW_SPEED_KM_S + g h/2) times
+    dt."""
     ok = usable[:, k] & usable[:, k + 1]
     speed = np.linalg.norm(v, axis=2)
     s = np.maximum(speed[ok, k], speed[ok, k + 1]) + sieve.G_KM_S2 * H_S / 2.0
-    return REACH_KM + s[s <= sieve.SLOW_SPEED_KM_S].max() * H_S / substeps
+    slow = s <= sieve.SLOW_SPEED_KM_S + sieve.G_KM_S2 * H_S / 2.0
+    return REACH_KM + s[slow].max() * H_S / substeps
 
 
 def _states(seed: int, substeps: int, n: int = 240, m: int = 4):
@@ -103,7 +105,8 @@ def test_cell_search_equals_brute_force(seed, substeps):
     assert sure <= got                                     # nothing the tests keep is lost
     assert got - sure <= border                            # and nothing else is kept
     paired = {a for a, b, _ in sure} | {b for a, b, _ in sure}
-    assert any(np.linalg.norm(v[i], axis=1).max() > sieve.SLOW_SPEED_KM_S for i in paired)
+    fast_km_s = sieve.SLOW_SPEED_KM_S + sieve.G_KM_S2 * H_S / 2.0
+    assert any(np.linalg.norm(v[i], axis=1).max() > fast_km_s for i in paired)
     twins = {(a, len(r) - 1 - a) for a in TWINS}
     assert not any((a, b) in twins for a, b, _ in got)
 

@@ -53,7 +53,7 @@ LINEAR_SAFETY = 3.0
 # Objects whose speed bound over an interval is at most this (every circular orbit above about
 # 150 km, MEO, GEO) find their partners in the neighbouring cells of the all-vs-all grid; the
 # few faster ones (eccentric orbits near perigee) scan a wider block of cells.
-SLOW_SPEED_KM_S = 8.6
+SLOW_SPEED_KM_S = 8.0    # plus g h/2, the speed bound's own pad (8.6 km/s at h = 120 s)
 
 
 def all_pairs_candidates(r: np.ndarray, v: np.ndarray, usable: np.ndarray, h_s: float,
@@ -71,7 +71,7 @@ def all_pairs_candidates(r: np.ndarray, v: np.ndarray, usable: np.ndarray, h_s: 
     margin = LINEAR_SAFETY * ACCEL_BOUND_KM_S2 * half * half / 2.0
     rows = grid_pairs(np.ascontiguousarray(r, float), np.ascontiguousarray(v, float),
                       np.ascontiguousarray(usable, bool), float(h_s), float(reach_km),
-                      int(substeps), SLOW_SPEED_KM_S, G_KM_S2, margin)
+                      int(substeps), SLOW_SPEED_KM_S + G_KM_S2 * h_s / 2.0, G_KM_S2, margin)
     if not len(rows):
         return np.empty((0, 3), dtype=np.int64)
     key = np.unique((rows[:, 2] * n + rows[:, 0]) * n + rows[:, 1])
