@@ -5,9 +5,9 @@ every pair of objects (scipy.spatial.distance.pdist for the distances at the ins
 each pair's closest straight-line approach over +-dt/2 with scipy.optimize.minimize_scalar
 (bounded, xatol 1e-9); a pair is expected when both tests of `screening.cells` hold.  The
 objects are placed to make the search's hard cases happen: clusters that straddle cell
-boundaries, fast objects (speed bound above `sieve.SLOW_SPEED_KM_S` + g h/2) that scan wider blocks,
-objects exactly one wrap period (`cells.WRAP` cells) apart that share bins without being close,
-and unusable samples.
+boundaries, fast objects (speed bound above `sieve.SLOW_SPEED_KM_S` + g h/2) that scan wider
+blocks, objects exactly one wrap period (`cells.WRAP` cells) apart that share bins without being
+close, and unusable samples.
 
 Fleet (`screening.fleet_scan`): every interval in which the sgp4 library, sampled every second,
 brings a secondary within reach of the primary must be kept.
