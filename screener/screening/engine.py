@@ -188,8 +188,8 @@ def run_task(task: Task) -> TaskResult:
     brackets = []
     t_sieve = time.perf_counter()
     if task.all_vs_all:
-        trip = all_pairs_candidates(r, v, usable, h, reach,
-                                    KD_SUBSTEPS if len(pop) >= KD_SMALL_OBJECTS else KD_SUBSTEPS_SMALL)
+        substeps = KD_SUBSTEPS if len(pop) >= KD_SMALL_OBJECTS else KD_SUBSTEPS_SMALL
+        trip = all_pairs_candidates(r, v, usable, h, reach, substeps)
         stats["candidates"] = len(trip)
         brackets = brackets_from_candidates(t, r, v, trip[:, 0], trip[:, 1], trip[:, 2], reach, row_of)
     else:
