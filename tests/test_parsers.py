@@ -38,6 +38,14 @@ def test_bad_checksum_names_file_line_column():
     assert (err.path, err.line, err.column) == ("f.tle", 1, 69) and "checksum" in err.reason
 
 
+def test_non_ascii_digit_is_a_checksum_error_not_a_crash():
+    """A superscript two passes str.isdigit but not int(); only ASCII digits count in the
+    checksum (common practice: the format is ASCII), so the line is refused with its place."""
+    bad = L1[:20] + "\u00b2" + L1[21:]
+    (err,) = _errors(f"{bad}\n{L2}\n")
+    assert (err.path, err.line) == ("f.tle", 1) and "checksum" in err.reason
+
+
 def test_line_number_pairing():
     assert "not followed by line 2" in _errors(f"{L1}\n{L1}\n")[0].reason
     assert "line 2 without" in _errors(f"{L2}\n")[0].reason
