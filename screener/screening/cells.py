@@ -2,18 +2,22 @@
 instant, compiled with numba (one call per task, no Python per interval or per pair).
 
 At each sample instant inside a grid interval every object's position and velocity come from
-the cubic Hermite of its two end states.  Objects are binned in cubic cells of side c, wrapped
-modulo `WRAP` cells per axis (positions that alias share a bin; the distance tests below reject
-them, so aliasing costs checks, never pairs).  An object scans the cells within k_a of its own,
-k_a = ceil((reach + s_a dt) / c), and tests each other object b of lower speed bound (ties: the
-higher index), so that every pair is tested once, by its faster member, whose scan covers the
-pair's radius reach + (s_a + s_b) dt/2 <= reach + s_a dt.  A pair is kept when
+the cubic Hermite of its two end states (`ephemeris.hermite_cubic`, compiled here).  A pair is
+kept when
 
 1. its distance at the instant is at most reach + (s_a + s_b) dt/2 (s the speed bounds over the
    interval: each object moves at most s dt/2 within +-dt/2 of the instant), and
 2. its straight-line relative motion over +-dt/2 comes within reach plus the curvature margin.
 
 Both are necessary for any approach within reach during +-dt/2, so the search is conservative.
+The pairs are found by speed class.  Slow objects (speed bound at most `slow_km_s`) are binned
+in cubic cells of side c = reach + s_slow dt, s_slow their largest bound, so that any pair of
+them within its radius lies in the same or neighbouring cells: each occupied cell is tested
+against itself and its 13 half-space neighbours, every pair of cells once.  Each fast object
+scans the block of cells within ceil((reach + s_a dt) / c) of its own (it is the faster of any
+fast x slow pair, whose radius is then at most reach + s_a dt), and fast objects are tested
+against each other directly.  Cells are wrapped modulo `WRAP` per axis: positions that alias
+share a bin and the distance test rejects them, so aliasing costs tests, never pairs.
 """
 
 from __future__ import annotations
@@ -23,28 +27,25 @@ import math
 import numpy as np
 from numba import njit
 
+from ..propagation.ephemeris import hermite_cubic
+
 WRAP = 64     # cells per axis of the wrapped grid: 64^3 bins (2 MB of counts)
 
 
-@njit(cache=True, nogil=True)
-def _hermite_at(u, h, r0, v0, r1, v1, pos, vel):
-    """Cubic Hermite at u in [0, 1] of the rows given (r, v at both ends; v in km/s)."""
-    u2 = u * u
-    u3 = u2 * u
-    h00, h10, h01, h11 = 2 * u3 - 3 * u2 + 1, u3 - 2 * u2 + u, -2 * u3 + 3 * u2, u3 - u2
-    d00, d10, d01, d11 = 6 * u2 - 6 * u, 3 * u2 - 4 * u + 1, -6 * u2 + 6 * u, 3 * u2 - 2 * u
-    for i in range(pos.shape[0]):
-        for c in range(3):
-            pos[i, c] = h00 * r0[i, c] + h10 * h * v0[i, c] + h01 * r1[i, c] + h11 * h * v1[i, c]
-            vel[i, c] = (d00 * r0[i, c] + d10 * h * v0[i, c] + d01 * r1[i, c]
-                         + d11 * h * v1[i, c]) / h
+_hermite = njit(cache=True, nogil=True)(hermite_cubic)
 
 
 @njit(cache=True, nogil=True)
-def _wrapped(x, cell_km):
-    """The wrapped cell index of one coordinate (WRAP is a power of two: & is the modulo,
-    for negative indices too)."""
-    return int(math.floor(x / cell_km)) & (WRAP - 1)
+def _cell(x, cell_km):
+    """The (unwrapped) cell index of one coordinate."""
+    return int(math.floor(x / cell_km))
+
+
+@njit(cache=True, nogil=True)
+def _bin_of(cx, cy, cz):
+    """The bin of cell (cx, cy, cz) in the wrapped grid (WRAP is a power of two: & is the
+    modulo, for negative indices too)."""
+    return (((cx & (WRAP - 1)) * WRAP) + (cy & (WRAP - 1))) * WRAP + (cz & (WRAP - 1))
 
 
 @njit(cache=True, nogil=True)
@@ -55,8 +56,7 @@ def _bin(pos, rows, cell_km, cell_of, counts, starts, order):
     counts[:] = 0
     for e in range(len(rows)):
         i = rows[e]
-        b = (_wrapped(pos[i, 0], cell_km) * WRAP + _wrapped(pos[i, 1], cell_km)) * WRAP \
-            + _wrapped(pos[i, 2], cell_km)
+        b = _bin_of(_cell(pos[i, 0], cell_km), _cell(pos[i, 1], cell_km), _cell(pos[i, 2], cell_km))
         cell_of[e] = b
         counts[b] += 1
     acc = 0
@@ -94,8 +94,6 @@ _HALF = np.array([(dx, dy, dz) for dx in (-1, 0, 1) for dy in (-1, 0, 1) for dz 
                   if (dx, dy, dz) > (0, 0, 0)] + [(0, 0, 0)], dtype=np.int64)
 
 
-
-
 @njit(cache=True, nogil=True)
 def _push(out, n_out, ia, ib, k):
     if n_out == out.shape[0]:
@@ -112,8 +110,7 @@ def _push(out, n_out, ia, ib, k):
 def grid_pairs(r, v, usable, h_s, reach_km, substeps, slow_km_s, g_km_s2, margin_km):
     """(i, j, interval) rows, i < j, possibly repeated, of every pair and grid interval the two
     tests above keep at some sample instant.  r, v: (n, m, 3) states on the grid; usable:
-    (n, m); objects with a speed bound above slow_km_s scan wider blocks of cells (the others
-    pair through their own and the 26 neighbouring cells); margin_km: the curvature margin of
+    (n, m); slow_km_s: the speed bound of the slow class; margin_km: the curvature margin of
     the straight-line test."""
     n, m = usable.shape
     dt = h_s / substeps
@@ -131,6 +128,7 @@ def grid_pairs(r, v, usable, h_s, reach_km, substeps, slow_km_s, g_km_s2, margin
         if q_n < 2:
             continue
         r0, v0, r1, v1 = r[idx, k], v[idx, k], r[idx, k + 1], v[idx, k + 1]
+        v0h, v1h = v0 * h_s, v1 * h_s
         s = np.empty(q_n)
         for i in range(q_n):
             s0 = math.sqrt(v0[i, 0] ** 2 + v0[i, 1] ** 2 + v0[i, 2] ** 2)
@@ -140,15 +138,13 @@ def grid_pairs(r, v, usable, h_s, reach_km, substeps, slow_km_s, g_km_s2, margin
         fast = np.nonzero(s > slow_km_s)[0]
         s_slow = s[slow].max() if len(slow) else 0.0
         cell_km = reach_km + s_slow * dt
-        pos = np.empty((q_n, 3))
-        vel = np.empty((q_n, 3))
         cell_of = np.empty(len(slow), np.int64)
         order = np.empty(len(slow), np.int64)
         spos = np.empty((len(slow), 3))
         svel = np.empty((len(slow), 3))
         ss = np.empty(len(slow))
         for q in range(substeps):
-            _hermite_at((q + 0.5) / substeps, h_s, r0, v0, r1, v1, pos, vel)
+            pos, vel = _hermite((q + 0.5) / substeps, r0, v0h, r1, v1h, h_s)
             _bin(pos, slow, cell_km, cell_of, counts, starts, order)
             # the slow rows in bin order, so that a cell's rows are contiguous in memory
             for e in range(len(slow)):
@@ -157,17 +153,14 @@ def grid_pairs(r, v, usable, h_s, reach_km, substeps, slow_km_s, g_km_s2, margin
                 ss[e] = s[order[e]]
             # slow x slow: each occupied cell against itself and its half-space neighbours
             for e0 in range(len(slow)):
-                ax = int(math.floor(spos[e0, 0] / cell_km))
-                ay = int(math.floor(spos[e0, 1] / cell_km))
-                az = int(math.floor(spos[e0, 2] / cell_km))
-                own = ((ax & (WRAP - 1)) * WRAP + (ay & (WRAP - 1))) * WRAP + (az & (WRAP - 1))
+                ax, ay, az = (_cell(spos[e0, 0], cell_km), _cell(spos[e0, 1], cell_km),
+                              _cell(spos[e0, 2], cell_km))
+                own = _bin_of(ax, ay, az)
                 if e0 != starts[own]:
                     continue            # the cell is taken from its first row
                 for o in range(len(half_cells)):
-                    bx = (ax + half_cells[o, 0]) & (WRAP - 1)
-                    by = (ay + half_cells[o, 1]) & (WRAP - 1)
-                    bz = (az + half_cells[o, 2]) & (WRAP - 1)
-                    other = (bx * WRAP + by) * WRAP + bz
+                    other = _bin_of(ax + half_cells[o, 0], ay + half_cells[o, 1],
+                                    az + half_cells[o, 2])
                     for ea in range(starts[own], starts[own + 1]):
                         eb0 = ea + 1 if other == own else starts[other]
                         for eb in range(eb0, starts[other + 1]):
@@ -176,14 +169,12 @@ def grid_pairs(r, v, usable, h_s, reach_km, substeps, slow_km_s, g_km_s2, margin
             # fast x slow: a block of cells wide enough for the fast one's radius
             for a in fast:
                 ka = int(math.ceil((reach_km + s[a] * dt) / cell_km))
-                ax = int(math.floor(pos[a, 0] / cell_km))
-                ay = int(math.floor(pos[a, 1] / cell_km))
-                az = int(math.floor(pos[a, 2] / cell_km))
+                ax, ay, az = (_cell(pos[a, 0], cell_km), _cell(pos[a, 1], cell_km),
+                              _cell(pos[a, 2], cell_km))
                 for dx in range(-ka, ka + 1):
                     for dy in range(-ka, ka + 1):
                         for dz in range(-ka, ka + 1):
-                            other = ((((ax + dx) & (WRAP - 1)) * WRAP + ((ay + dy) & (WRAP - 1)))
-                                     * WRAP + ((az + dz) & (WRAP - 1)))
+                            other = _bin_of(ax + dx, ay + dy, az + dz)
                             for eb in range(starts[other], starts[other + 1]):
                                 b = order[eb]
                                 if _test(a, b, pos, vel, s, reach_km, half, lim2):

@@ -42,10 +42,10 @@ from .volume import Volume
 FLEET_STEP_S = 240.0
 ALL_VS_ALL_STEP_S = 120.0
 INTERP_MARGIN_KM = 2.0        # added to the volume's bounding radius in both coarse stages
-KD_SUBSTEPS = 4               # cell-search instants per grid interval (all-vs-all) ...
-KD_SUBSTEPS_SMALL = 2         # ... and for a task of fewer objects than KD_SMALL_OBJECTS, where
-KD_SMALL_OBJECTS = 15_000     # each instant's fixed cost (binning every object) outweighs the
-                              # candidates it saves (measured, DEVELOPERS.md)
+SIEVE_INSTANTS = 4             # cell-search instants per grid interval (all-vs-all) ...
+SIEVE_INSTANTS_SMALL = 2       # ... and for a task of fewer objects than SIEVE_SMALL_OBJECTS,
+SIEVE_SMALL_OBJECTS = 15_000   # where each instant's fixed cost (binning every object)
+                               # outweighs the candidates it saves (measured, DEVELOPERS.md)
 MAX_SECONDARIES_PER_TASK = 4000
 # Planned peak memory of one task, so that a task fits a 4 GB worker: an all-vs-all span holds
 # every object's states, so large catalogs get more, shorter spans.  Measured (DEVELOPERS.md):
@@ -188,7 +188,7 @@ def run_task(task: Task) -> TaskResult:
     brackets = []
     t_sieve = time.perf_counter()
     if task.all_vs_all:
-        substeps = KD_SUBSTEPS if len(pop) >= KD_SMALL_OBJECTS else KD_SUBSTEPS_SMALL
+        substeps = SIEVE_INSTANTS if len(pop) >= SIEVE_SMALL_OBJECTS else SIEVE_INSTANTS_SMALL
         trip = all_pairs_candidates(r, v, usable, h, reach, substeps)
         stats["candidates"] = len(trip)
         brackets = brackets_from_candidates(t, r, v, trip[:, 0], trip[:, 1], trip[:, 2], reach, row_of)

@@ -4,7 +4,7 @@ in one pass over the secondaries' states (`sieve.fleet_candidates` states the bo
 Each sample's range is computed once and shared by the two intervals it ends; an interval is
 first tested with the secondary's largest speed over the span, and only when that lets it
 through with the relative speeds at its ends.  States are read in place (no copy of the
-secondaries' rows) and in double precision.
+secondaries' rows).
 """
 
 from __future__ import annotations
@@ -17,11 +17,10 @@ from numba import njit
 
 @njit(cache=True, nogil=True)
 def _gap(x, i, k, xp):
-    """|x[i, k] - xp[k]| in double precision (a range from positions, a relative speed from
-    velocities)."""
-    dx = np.float64(x[i, k, 0]) - xp[k, 0]
-    dy = np.float64(x[i, k, 1]) - xp[k, 1]
-    dz = np.float64(x[i, k, 2]) - xp[k, 2]
+    """|x[i, k] - xp[k]| (a range from positions, a relative speed from velocities)."""
+    dx = x[i, k, 0] - xp[k, 0]
+    dy = x[i, k, 1] - xp[k, 1]
+    dz = x[i, k, 2] - xp[k, 2]
     return math.sqrt(dx * dx + dy * dy + dz * dz)
 
 
@@ -31,11 +30,9 @@ def fleet_scan(rp, vp, usable_p, r, v, usable, rows, h_s, reach_km, s_top_km_s, 
     """(e, k) of every secondary rows[e] and interval k whose lower bound on range is within
     reach_km[e] and whose four end samples (both objects) are usable.  rp, vp: the primary's
     (m, 3) states; r, v: (N, m, 3) states of all objects; s_top_km_s[e]: secondary rows[e]'s
-    largest speed over the span; p_top_km_s: the primary's."""
+    largest speed over the span; p_top_km_s: the primary's.  Float64 states (the engine's)."""
     m = rp.shape[0]
     n = len(rows)
-    rp64 = rp.astype(np.float64)
-    vp64 = vp.astype(np.float64)
     cap = 1 << 12
     out = np.empty((cap, 2), np.int64)
     n_out = 0
@@ -43,13 +40,13 @@ def fleet_scan(rp, vp, usable_p, r, v, usable, rows, h_s, reach_km, s_top_km_s, 
     for e in range(n):
         i = rows[e]
         pad = h_s * (s_top_km_s[e] + p_top_km_s + half_dv)
-        d0 = _gap(r, i, 0, rp64)
+        d0 = _gap(r, i, 0, rp)
         ok0 = usable[i, 0] and usable_p[0]
         for k in range(m - 1):
-            d1 = _gap(r, i, k + 1, rp64)
+            d1 = _gap(r, i, k + 1, rp)
             ok1 = usable[i, k + 1] and usable_p[k + 1]
             if ok0 and ok1 and 0.5 * (d0 + d1 - pad) <= reach_km[e]:
-                w = max(_gap(v, i, k, vp64), _gap(v, i, k + 1, vp64)) + half_dv
+                w = max(_gap(v, i, k, vp), _gap(v, i, k + 1, vp)) + half_dv
                 if 0.5 * (d0 + d1 - h_s * w) <= reach_km[e]:
                     if n_out == cap:
                         cap *= 2
