@@ -5,9 +5,11 @@ every pair of objects (scipy.spatial.distance.pdist for the distances at the ins
 each pair's closest straight-line approach over +-dt/2 with scipy.optimize.minimize_scalar
 (bounded, xatol 1e-9); a pair is expected when both tests of `screening.cells` hold.  The
 objects are placed to make the search's hard cases happen: clusters that straddle cell
-boundaries, fast objects (speed bound above `sieve.SLOW_SPEED_KM_S` + g h/2) that scan wider
-blocks, objects exactly one wrap period (`cells.WRAP` cells) apart that share bins without being
-close, and unusable samples.
+boundaries, fast objects (speed bound above `sieve.SLOW_SPEED_KM_S`) that scan wider blocks,
+objects exactly one wrap period (`cells.WRAP` cells) apart that share bins without being close,
+and unusable samples.  Independently of how the two tests are stated, every pair whose
+interpolated paths (the cubic Hermite, sampled every 0.05 s) come within reach on an interval
+must be kept: the conservativeness the screening relies on.
 
 Fleet (`screening.fleet_scan`): every interval in which the sgp4 library, sampled every second,
 brings a secondary within reach of the primary must be kept.
@@ -29,15 +31,28 @@ BORDER_KM = 1e-6     # pairs this close to a threshold are left out of the compa
 TWINS = (0, 1, 2)
 
 
-def _cell_km(v, usable, k, substeps):
-    """The cell side `cells.grid_pairs` uses on interval k: reach plus the largest speed bound
-    of the slow objects (`sieve.all_pairs_candidates`: at most SLOW_SPEED_KM_S + g h/2) times
-    dt."""
-    ok = usable[:, k] & usable[:, k + 1]
-    speed = np.linalg.norm(v, axis=2)
-    s = np.maximum(speed[ok, k], speed[ok, k + 1]) + sieve.G_KM_S2 * H_S / 2.0
-    slow = s <= sieve.SLOW_SPEED_KM_S + sieve.G_KM_S2 * H_S / 2.0
-    return REACH_KM + s[slow].max() * H_S / substeps
+def _bounds(r, v, idx, k, substeps):
+    """Each object's speed bound s at each instant of interval k and its acceleration bound A
+    (the interpolant's acceleration at the interval's ends, the larger norm), as the module
+    text of `screening.cells` states them; and the positions and velocities at the instants."""
+    r0, r1, w0, w1 = r[idx, k], r[idx, k + 1], v[idx, k] * H_S, v[idx, k + 1] * H_S
+    acc = np.maximum(np.linalg.norm(6 * (r1 - r0) - 4 * w0 - 2 * w1, axis=1),
+                     np.linalg.norm(6 * (r0 - r1) + 2 * w0 + 4 * w1, axis=1)) / H_S**2
+    half = H_S / substeps / 2.0
+    out = []
+    for q in range(substeps):
+        pos, vel = hermite_cubic((q + 0.5) / substeps, r0, w0, r1, w1, H_S)
+        out.append((pos, vel, np.linalg.norm(vel, axis=1) + acc * half))
+    return acc, out
+
+
+def _cell_km(r, v, usable, k, substeps, q=0):
+    """The cell side `cells.grid_pairs` uses at instant q of interval k: reach plus the largest
+    speed bound of the slow objects times dt."""
+    idx = np.nonzero(usable[:, k] & usable[:, k + 1])[0]
+    _, inst = _bounds(r, v, idx, k, substeps)
+    s = inst[q][2]
+    return REACH_KM + s[s <= sieve.SLOW_SPEED_KM_S].max() * H_S / substeps
 
 
 def _states(seed: int, substeps: int, n: int = 240, m: int = 4):
@@ -55,9 +70,9 @@ def _states(seed: int, substeps: int, n: int = 240, m: int = 4):
         v[:, k] = heading * speed[:, None] + turn * tk
     usable = rng.random((n, m)) > 0.03
     usable[list(TWINS) + [n - 1 - a for a in TWINS], :2] = True
-    # twins one wrap period away along each axis: on the first interval they share bins
-    # with the originals without being close
-    cell_km = _cell_km(v, usable, 0, substeps)
+    # twins one wrap period away along each axis: at the first instant they share bins with
+    # the originals without being close
+    cell_km = _cell_km(r, v, usable, 0, substeps)
     for axis, a in enumerate(TWINS):
         r[n - 1 - a] = r[a] + np.eye(3)[axis] * cells.WRAP * cell_km
         v[n - 1 - a] = v[a]
@@ -66,33 +81,44 @@ def _states(seed: int, substeps: int, n: int = 240, m: int = 4):
 
 def _reference(r, v, usable, substeps):
     n, m, _ = r.shape
-    dt = H_S / substeps
-    half = dt / 2.0
-    margin = sieve.LINEAR_SAFETY * sieve.ACCEL_BOUND_KM_S2 * half * half / 2.0
-    lim = REACH_KM + margin
-    speed = np.linalg.norm(v, axis=2)
+    half = H_S / substeps / 2.0
     sure, border = set(), set()
     for k in range(m - 1):
         idx = np.nonzero(usable[:, k] & usable[:, k + 1])[0]
-        s = np.maximum(speed[idx, k], speed[idx, k + 1]) + sieve.G_KM_S2 * H_S / 2.0
-        for q in range(substeps):
-            pos, vel = hermite_cubic((q + 0.5) / substeps, r[idx, k], v[idx, k] * H_S,
-                                     r[idx, k + 1], v[idx, k + 1] * H_S, H_S)
+        acc, inst = _bounds(r, v, idx, k, substeps)
+        lim = REACH_KM + (acc[:, None] + acc[None, :]) * half * half / 2.0
+        for pos, vel, s in inst:
             dist = squareform(pdist(pos))
             rad = REACH_KM + (s[:, None] + s[None, :]) * half
             for a, b in zip(*np.nonzero(np.triu(dist <= rad + BORDER_KM, 1))):
                 rho, w = pos[b] - pos[a], vel[b] - vel[a]
-                if dist[a, b] - np.linalg.norm(w) * half > lim + 1.0:
+                if dist[a, b] - np.linalg.norm(w) * half > lim[a, b] + 1.0:
                     continue        # the triangle inequality: it cannot come within lim
                 best = minimize_scalar(lambda tau: np.linalg.norm(rho + w * tau),
                                        bounds=(-half, half), method="bounded",
                                        options={"xatol": 1e-9}).fun
                 row = (idx[a], idx[b], k)
-                if abs(dist[a, b] - rad[a, b]) < BORDER_KM or abs(best - lim) < BORDER_KM:
+                if abs(dist[a, b] - rad[a, b]) < BORDER_KM or abs(best - lim[a, b]) < BORDER_KM:
                     border.add(row)
-                elif dist[a, b] <= rad[a, b] and best <= lim:
+                elif dist[a, b] <= rad[a, b] and best <= lim[a, b]:
                     sure.add(row)
     return sure, border
+
+
+def _close_paths(r, v, usable):
+    """(i, j, interval) of every pair whose interpolated paths, sampled every 0.05 s, come
+    within reach on the interval."""
+    n, m, _ = r.shape
+    u = np.linspace(0.0, 1.0, int(H_S / 0.05) + 1)
+    out = set()
+    for k in range(m - 1):
+        idx = np.nonzero(usable[:, k] & usable[:, k + 1])[0]
+        pos, _ = hermite_cubic(u[None, :, None], r[idx, k][:, None], v[idx, k][:, None] * H_S,
+                               r[idx, k + 1][:, None], v[idx, k + 1][:, None] * H_S, H_S)
+        for a in range(len(idx)):
+            d = np.linalg.norm(pos[a + 1:] - pos[a][None], axis=2).min(axis=1)
+            out |= {(idx[a], idx[a + 1 + b], k) for b in np.nonzero(d <= REACH_KM)[0]}
+    return out
 
 
 @pytest.mark.parametrize("seed,substeps", [(1, 4), (2, 2), (3, 6)])
@@ -104,9 +130,10 @@ def test_cell_search_equals_brute_force(seed, substeps):
     assert len(sure) > 50                                  # the scenario has work in it
     assert sure <= got                                     # nothing the tests keep is lost
     assert got - sure <= border                            # and nothing else is kept
-    paired = {a for a, b, _ in sure} | {b for a, b, _ in sure}
-    fast_km_s = sieve.SLOW_SPEED_KM_S + sieve.G_KM_S2 * H_S / 2.0
-    assert any(np.linalg.norm(v[i], axis=1).max() > fast_km_s for i in paired)
+    close = _close_paths(r, v, usable)
+    assert len(close) > 20 and close <= got                # no approach within reach is lost
+    paired = {a for a, b, _ in close} | {b for a, b, _ in close}
+    assert any(np.linalg.norm(v[i], axis=1).max() > sieve.SLOW_SPEED_KM_S for i in paired)
     twins = {(a, len(r) - 1 - a) for a in TWINS}
     assert not any((a, b) in twins for a, b, _ in got)
 

@@ -36,9 +36,11 @@ _hermite = njit(cache=True, nogil=True)(hermite_cubic)
 
 
 @njit(cache=True, nogil=True)
-def _cell(x, cell_km):
-    """The (unwrapped) cell index of one coordinate."""
-    return int(math.floor(x / cell_km))
+def _cell(x, per_km):
+    """The (unwrapped) cell index of one coordinate (per_km: cells per km), offset by half a wrap period so that the
+    wrap falls far from the origin (outside LEO for cells over 250 km): there, the three cells
+    along z of a column are neighbouring bins."""
+    return int(math.floor(x * per_km)) + WRAP // 2
 
 
 @njit(cache=True, nogil=True)
@@ -49,14 +51,14 @@ def _bin_of(cx, cy, cz):
 
 
 @njit(cache=True, nogil=True)
-def _bin(pos, rows, cell_km, cell_of, counts, starts, order):
+def _bin(pos, rows, per_km, cell_of, counts, starts, order):
     """Counting sort of pos[rows] into wrapped cells: order[starts[b]:starts[b + 1]] are bin
     b's rows."""
     nb = counts.shape[0]
     counts[:] = 0
     for e in range(len(rows)):
         i = rows[e]
-        b = _bin_of(_cell(pos[i, 0], cell_km), _cell(pos[i, 1], cell_km), _cell(pos[i, 2], cell_km))
+        b = _bin_of(_cell(pos[i, 0], per_km), _cell(pos[i, 1], per_km), _cell(pos[i, 2], per_km))
         cell_of[e] = b
         counts[b] += 1
     acc = 0
@@ -71,7 +73,7 @@ def _bin(pos, rows, cell_km, cell_of, counts, starts, order):
 
 
 @njit(cache=True, nogil=True)
-def _test(a, b, pos, vel, s, reach_km, half, lim2):
+def _test(a, b, pos, vel, s, acc, reach_km, half):
     """Both tests of the module docstring for rows a, b at one instant."""
     rx = pos[b, 0] - pos[a, 0]
     ry = pos[b, 1] - pos[a, 1]
@@ -85,13 +87,48 @@ def _test(a, b, pos, vel, s, reach_km, half, lim2):
     w2 = max(wx * wx + wy * wy + wz * wz, 1e-30)
     tau = min(half, max(-half, -(rx * wx + ry * wy + rz * wz) / w2))
     ex, ey, ez = rx + wx * tau, ry + wy * tau, rz + wz * tau
-    return ex * ex + ey * ey + ez * ez <= lim2
+    lim = reach_km + (acc[a] + acc[b]) * half * half / 2.0
+    return ex * ex + ey * ey + ez * ez <= lim * lim
 
 
-# the 13 neighbour offsets of a cell's half-space (each unordered pair of cells once) and
-# the cell itself
+@njit(cache=True, nogil=True)
+def _accel_bound(r0, v0h, r1, v1h, h_s):
+    """The largest acceleration of one object's cubic Hermite over its interval: the
+    interpolant's acceleration is linear in time, so its norm peaks at an end,
+    (6 (r1 - r0) - 4 v0 h - 2 v1 h) / h^2 at the start and (6 (r0 - r1) + 2 v0 h + 4 v1 h) / h^2
+    at the end."""
+    a0 = 0.0
+    a1 = 0.0
+    for c in range(3):
+        d = r1[c] - r0[c]
+        a0 += (6.0 * d - 4.0 * v0h[c] - 2.0 * v1h[c]) ** 2
+        a1 += (-6.0 * d + 2.0 * v0h[c] + 4.0 * v1h[c]) ** 2
+    return math.sqrt(max(a0, a1)) / (h_s * h_s)
+
+
+# the 13 neighbour offsets of a cell's half-space (each unordered pair of cells once) ...
 _HALF = np.array([(dx, dy, dz) for dx in (-1, 0, 1) for dy in (-1, 0, 1) for dz in (-1, 0, 1)
-                  if (dx, dy, dz) > (0, 0, 0)] + [(0, 0, 0)], dtype=np.int64)
+                  if (dx, dy, dz) > (0, 0, 0)], dtype=np.int64)
+# ... as the cell above in z and four whole columns of three cells (dz = -1, 0, 1), each a
+# run of consecutive bins unless the column crosses the wrap in z
+_COLUMNS = np.array([(0, 1), (1, -1), (1, 0), (1, 1)], dtype=np.int64)
+
+
+@njit(cache=True, nogil=True)
+def _neighbour_runs(ax, ay, az, starts, runs):
+    """The rows of the 13 half-space neighbours of cell (ax, ay, az) as runs
+    order[runs[q, 0]:runs[q, 1]]; returns how many runs."""
+    own = _bin_of(ax, ay, az)
+    if 0 < (az & (WRAP - 1)) < WRAP - 1:
+        runs[0, 0], runs[0, 1] = starts[own + 1], starts[own + 2]
+        for c in range(len(_COLUMNS)):
+            mid = _bin_of(ax + _COLUMNS[c, 0], ay + _COLUMNS[c, 1], az)
+            runs[c + 1, 0], runs[c + 1, 1] = starts[mid - 1], starts[mid + 2]
+        return 1 + len(_COLUMNS)
+    for o in range(len(_HALF)):
+        other = _bin_of(ax + _HALF[o, 0], ay + _HALF[o, 1], az + _HALF[o, 2])
+        runs[o, 0], runs[o, 1] = starts[other], starts[other + 1]
+    return len(_HALF)
 
 
 @njit(cache=True, nogil=True)
@@ -107,21 +144,25 @@ def _push(out, n_out, ia, ib, k):
 
 
 @njit(cache=True, nogil=True)
-def grid_pairs(r, v, usable, h_s, reach_km, substeps, slow_km_s, g_km_s2, margin_km):
+def grid_pairs(r, v, usable, h_s, reach_km, substeps, slow_km_s):
     """(i, j, interval) rows, i < j, possibly repeated, of every pair and grid interval the two
     tests above keep at some sample instant.  r, v: (n, m, 3) states on the grid; usable:
-    (n, m); slow_km_s: the speed bound of the slow class; margin_km: the curvature margin of
-    the straight-line test."""
+    (n, m); slow_km_s: the speed bound of the slow class."""
     n, m = usable.shape
     dt = h_s / substeps
     half = dt / 2.0
-    lim2 = (reach_km + margin_km) ** 2
     nb = WRAP * WRAP * WRAP
     counts = np.zeros(nb, np.int64)
     starts = np.zeros(nb + 1, np.int64)
     out = np.empty((1 << 16, 3), np.int64)
     n_out = 0
-    half_cells = _HALF
+    runs = np.empty((len(_HALF), 2), np.int64)
+    cell_of = np.empty(n, np.int64)
+    order = np.empty(n, np.int64)
+    spos = np.empty((n, 3))
+    svel = np.empty((n, 3))
+    ss = np.empty(n)
+    sacc = np.empty(n)
     for k in range(m - 1):
         idx = np.nonzero(usable[:, k] & usable[:, k + 1])[0]
         q_n = len(idx)
@@ -129,60 +170,61 @@ def grid_pairs(r, v, usable, h_s, reach_km, substeps, slow_km_s, g_km_s2, margin
             continue
         r0, v0, r1, v1 = r[idx, k], v[idx, k], r[idx, k + 1], v[idx, k + 1]
         v0h, v1h = v0 * h_s, v1 * h_s
-        s = np.empty(q_n)
+        acc = np.empty(q_n)
         for i in range(q_n):
-            s0 = math.sqrt(v0[i, 0] ** 2 + v0[i, 1] ** 2 + v0[i, 2] ** 2)
-            s1 = math.sqrt(v1[i, 0] ** 2 + v1[i, 1] ** 2 + v1[i, 2] ** 2)
-            s[i] = max(s0, s1) + g_km_s2 * h_s / 2.0
-        slow = np.nonzero(s <= slow_km_s)[0]
-        fast = np.nonzero(s > slow_km_s)[0]
-        s_slow = s[slow].max() if len(slow) else 0.0
-        cell_km = reach_km + s_slow * dt
-        cell_of = np.empty(len(slow), np.int64)
-        order = np.empty(len(slow), np.int64)
-        spos = np.empty((len(slow), 3))
-        svel = np.empty((len(slow), 3))
-        ss = np.empty(len(slow))
+            acc[i] = _accel_bound(r0[i], v0h[i], r1[i], v1h[i], h_s)
+        s = np.empty(q_n)
         for q in range(substeps):
             pos, vel = _hermite((q + 0.5) / substeps, r0, v0h, r1, v1h, h_s)
-            _bin(pos, slow, cell_km, cell_of, counts, starts, order)
+            for i in range(q_n):
+                s[i] = math.sqrt(vel[i, 0] ** 2 + vel[i, 1] ** 2 + vel[i, 2] ** 2) + acc[i] * half
+            slow = np.nonzero(s <= slow_km_s)[0]
+            fast = np.nonzero(s > slow_km_s)[0]
+            n_slow = len(slow)
+            s_slow = s[slow].max() if n_slow else 0.0
+            # a hair wider than the largest slow pair's radius, whatever the rounding of 1 / c
+            cell_km = (reach_km + s_slow * dt) * (1.0 + 1e-9)
+            per_km = 1.0 / cell_km
+            _bin(pos, slow, per_km, cell_of, counts, starts, order)
             # the slow rows in bin order, so that a cell's rows are contiguous in memory
-            for e in range(len(slow)):
+            for e in range(n_slow):
                 spos[e] = pos[order[e]]
                 svel[e] = vel[order[e]]
                 ss[e] = s[order[e]]
+                sacc[e] = acc[order[e]]
             # slow x slow: each occupied cell against itself and its half-space neighbours
-            for e0 in range(len(slow)):
-                ax, ay, az = (_cell(spos[e0, 0], cell_km), _cell(spos[e0, 1], cell_km),
-                              _cell(spos[e0, 2], cell_km))
+            for e0 in range(n_slow):
+                ax, ay, az = (_cell(spos[e0, 0], per_km), _cell(spos[e0, 1], per_km),
+                              _cell(spos[e0, 2], per_km))
                 own = _bin_of(ax, ay, az)
                 if e0 != starts[own]:
                     continue            # the cell is taken from its first row
-                for o in range(len(half_cells)):
-                    other = _bin_of(ax + half_cells[o, 0], ay + half_cells[o, 1],
-                                    az + half_cells[o, 2])
-                    for ea in range(starts[own], starts[own + 1]):
-                        eb0 = ea + 1 if other == own else starts[other]
-                        for eb in range(eb0, starts[other + 1]):
-                            if _test(ea, eb, spos, svel, ss, reach_km, half, lim2):
+                a1 = starts[own + 1]
+                n_runs = _neighbour_runs(ax, ay, az, starts, runs)
+                for ea in range(e0, a1):
+                    for eb in range(ea + 1, a1):
+                        if _test(ea, eb, spos, svel, ss, sacc, reach_km, half):
+                            out, n_out = _push(out, n_out, idx[order[ea]], idx[order[eb]], k)
+                    for q2 in range(n_runs):
+                        for eb in range(runs[q2, 0], runs[q2, 1]):
+                            if _test(ea, eb, spos, svel, ss, sacc, reach_km, half):
                                 out, n_out = _push(out, n_out, idx[order[ea]], idx[order[eb]], k)
             # fast x slow: a block of cells wide enough for the fast one's radius
             for a in fast:
-                ka = int(math.ceil((reach_km + s[a] * dt) / cell_km))
-                ax, ay, az = (_cell(pos[a, 0], cell_km), _cell(pos[a, 1], cell_km),
-                              _cell(pos[a, 2], cell_km))
+                ka = int(math.ceil((reach_km + s[a] * dt) / cell_km * (1.0 + 1e-9)))
+                ax, ay, az = (_cell(pos[a, 0], per_km), _cell(pos[a, 1], per_km),
+                              _cell(pos[a, 2], per_km))
                 for dx in range(-ka, ka + 1):
                     for dy in range(-ka, ka + 1):
                         for dz in range(-ka, ka + 1):
                             other = _bin_of(ax + dx, ay + dy, az + dz)
                             for eb in range(starts[other], starts[other + 1]):
                                 b = order[eb]
-                                if _test(a, b, pos, vel, s, reach_km, half, lim2):
+                                if _test(a, b, pos, vel, s, acc, reach_km, half):
                                     out, n_out = _push(out, n_out, idx[a], idx[b], k)
             # fast x fast: every pair (they are few)
             for ea in range(len(fast)):
                 for eb in range(ea + 1, len(fast)):
-                    if _test(fast[ea], fast[eb], pos, vel, s, reach_km, half, lim2):
+                    if _test(fast[ea], fast[eb], pos, vel, s, acc, reach_km, half):
                         out, n_out = _push(out, n_out, idx[fast[ea]], idx[fast[eb]], k)
     return out[:n_out]
-

@@ -189,39 +189,51 @@ def solve_tcas(pop, brackets: list[Bracket], jd0: float, fr0: float, t_min_s: fl
     return out
 
 
+CROSSING_FIRST_BLOCK = 20   # samples in the first block scanned each side of TCA (doubling)
+
+
 def crossing_times(pop, i: int, j: int, jd0: float, fr0: float, tca_s: float, volume,
                    t_min_s: float, t_max_s: float, step_s: float = 30.0,
                    max_span_s: float = 86400.0) -> tuple[float | None, float | None]:
     """Entry and exit times (s) of the secondary through the volume around TCA (slow passes).
-    None where the secondary is still inside at the window's edge (or `max_span_s` away)."""
+    None where the secondary is still inside at the window's edge (or `max_span_s` away).
+
+    Each side is sampled every `step_s` outward from TCA in blocks that double in length
+    (most slow passes leave the volume within minutes), until the first sample outside; the
+    crossing between it and the sample before is then solved with Brent's method."""
     from .ric import to_ric
 
-    lo = max(t_min_s, tca_s - max_span_s)
-    hi = min(t_max_s, tca_s + max_span_s)
-    t = np.unique(np.concatenate([np.arange(tca_s, lo, -step_s), [lo, tca_s, hi],
-                                  np.arange(tca_s, hi, step_s)]))
-    r, v, c = pop.states(jd0, fr0, t, rows=[i, j])
-    ok = (c[0] == 0) & (c[1] == 0)
-    g = volume.norm(to_ric(r[1] - r[0], r[0], v[0])) - 1.0
-    g = np.where(ok, g, np.nan)
-    k0 = int(np.searchsorted(t, tca_s))
+    def g_many(t):
+        r, v, c = pop.states(jd0, fr0, t, rows=[i, j])
+        g = volume.norm(to_ric(r[1] - r[0], r[0], v[0])) - 1.0
+        return np.where((c[0] == 0) & (c[1] == 0), g, np.nan)
 
     def g_scalar(tt):
         ri, vi, _ = pop.state_at(i, jd0, fr0, tt)
         rj, vj, _ = pop.state_at(j, jd0, fr0, tt)
         return float(volume.norm(to_ric(rj - ri, ri, vi))) - 1.0
 
-    def edge(indices):
-        prev = k0
-        for k in indices:
-            if not np.isfinite(g[k]):
+    def edge(sign, end):
+        prev, k, block = tca_s, 1, CROSSING_FIRST_BLOCK
+        while True:
+            t = tca_s + sign * step_s * np.arange(k, k + block)
+            last = sign * (t - end) >= 0.0
+            if last.any():
+                t = np.r_[t[~last], end]
+            g = g_many(t)
+            for tk, gk in zip(t.tolist(), g.tolist()):
+                if not np.isfinite(gk):
+                    return None
+                if gk > 0:
+                    a, b = sorted((prev, tk))
+                    return brentq(g_scalar, a, b, xtol=1e-3)
+                prev = tk
+            if last.any() or prev == end:
                 return None
-            if g[k] > 0:
-                a, b = sorted((t[prev], t[k]))
-                return brentq(g_scalar, a, b, xtol=1e-3)
-            prev = k
-        return None
+            k, block = k + block, 2 * block
 
-    if not (g[k0] <= 0):
+    if not (g_many(np.array([tca_s]))[0] <= 0):
         return None, None
-    return edge(range(k0 - 1, -1, -1)), edge(range(k0 + 1, len(t)))
+    lo = max(t_min_s, tca_s - max_span_s)
+    hi = min(t_max_s, tca_s + max_span_s)
+    return edge(-1.0, lo), edge(1.0, hi)

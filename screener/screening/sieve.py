@@ -45,36 +45,28 @@ def fleet_candidates(rp: np.ndarray, vp: np.ndarray, usable_p: np.ndarray, r: np
     return out[:, 0], out[:, 1]
 
 
-# Over +-dt/2 around a substep the relative path departs from its tangent line by at most
-# A (dt/2)^2 / 2 with A the relative acceleration; LINEAR_SAFETY covers the interpolant's own
-# curvature on top of the physical bound.
-LINEAR_SAFETY = 3.0
-
-# Objects whose speed bound over an interval is at most this (every circular orbit above about
-# 150 km, MEO, GEO) find their partners in the neighbouring cells of the all-vs-all grid; the
-# few faster ones (eccentric orbits near perigee) scan a wider block of cells.
-SLOW_SPEED_KM_S = 8.0    # plus g h/2, the speed bound's own pad (8.6 km/s at h = 120 s)
+# Objects whose speed bound around an instant is at most this (every circular orbit above
+# about 150 km, MEO, GEO) find their partners in the neighbouring cells of the all-vs-all grid;
+# the few faster ones (eccentric orbits near perigee) scan a wider block of cells.
+SLOW_SPEED_KM_S = 8.0
 
 
 def all_pairs_candidates(r: np.ndarray, v: np.ndarray, usable: np.ndarray, h_s: float,
                          reach_km: float, substeps: int) -> np.ndarray:
     """All-vs-all: unique (i, j, interval) rows with i < j, sorted by interval then pair.
     Positions are interpolated (cubic Hermite) at `substeps` instants inside each interval; at
-    each, a pair is kept when its distance is within reach + (s_i + s_j) (h/substeps)/2 (s an
-    object's speed bound over the interval: the larger end speed + g h/2, which covers every
-    instant of the interval) and its straight-line motion over +-dt/2 comes within reach plus
-    a curvature margin (`cells.grid_pairs`)."""
+    each, a pair is kept when its distance is within reach + (s_i + s_j) (h/substeps)/2 and its
+    straight-line motion over +-dt/2 comes within reach + (A_i + A_j) (dt/2)^2 / 2, with A an
+    object's largest interpolated acceleration over the interval and s its interpolated speed
+    at the instant + A dt/2 (`cells.grid_pairs`)."""
     from .cells import grid_pairs       # numba compiles (or loads) it on first use
 
     n, m, _ = r.shape
-    half = h_s / substeps / 2.0
-    margin = LINEAR_SAFETY * ACCEL_BOUND_KM_S2 * half * half / 2.0
     rows = grid_pairs(np.ascontiguousarray(r, float), np.ascontiguousarray(v, float),
                       np.ascontiguousarray(usable, bool), float(h_s), float(reach_km),
-                      int(substeps), SLOW_SPEED_KM_S + G_KM_S2 * h_s / 2.0, G_KM_S2, margin)
+                      int(substeps), SLOW_SPEED_KM_S)
     if not len(rows):
         return np.empty((0, 3), dtype=np.int64)
     key = np.unique((rows[:, 2] * n + rows[:, 0]) * n + rows[:, 1])
     pair, k = key % (n * n), key // (n * n)
     return np.stack([pair // n, pair % n, k], axis=1)
-
