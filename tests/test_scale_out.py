@@ -4,6 +4,7 @@ processes) gives the same encounters as the local run, to the microsecond and th
 from __future__ import annotations
 
 import dataclasses
+import gc
 import os
 
 import pytest
@@ -11,6 +12,7 @@ import pytest
 distributed = pytest.importorskip("distributed")
 
 from screener.config import load_config  # noqa: E402
+from screener.gcpause import gc_paused  # noqa: E402
 from screener.pipeline import execute  # noqa: E402
 
 from .nightly import DEMO, screener  # noqa: E402
@@ -37,6 +39,26 @@ def test_dask_cluster_matches_local_run(cluster):
         assert abs(x.tca_s - y.tca_s) < 1e-6
         assert abs(x.miss_km - y.miss_km) < 1e-6
         assert x.pc == pytest.approx(y.pc, rel=1e-9)
+    assert gc.isenabled()           # the bulk stages pause the cyclic collector, then restore it
+
+
+def test_paused_collector_comes_back_after_an_error_and_when_nested():
+    @gc_paused
+    def inner():
+        assert not gc.isenabled()
+
+    @gc_paused
+    def outer(fail):
+        inner()
+        assert not gc.isenabled()   # still paused after the nested stage
+        if fail:
+            raise ValueError("stage failed")
+
+    outer(False)
+    assert gc.isenabled()
+    with pytest.raises(ValueError):
+        outer(True)
+    assert gc.isenabled()
 
 
 def test_unreachable_scheduler_is_a_clear_error():

@@ -227,3 +227,42 @@ def test_ric_ellipsoid_screening_keeps_exactly_the_reference_minima_inside_it(sc
             inside.append((p, s, tca, miss))
     assert len(inside) > 8 and len(inside) < len(ref)   # the ellipsoid does cut something
     _compare(res.encounters, inside)
+
+
+def test_slow_pass_entry_and_exit_times_match_sgp4_sampled_every_second():
+    """Two neighbours in the primary's plane, 1 km above it (ahead) and 1 km below (behind),
+    drift through the 5 km sphere at a relative speed under 1 m/s, each inside for about 1.7
+    hours (the slow, long passes of a constellation shell).  Entry and exit against the sgp4
+    library itself: the range sampled every second, its 5 km crossings nearest each TCA
+    interpolated linearly; to 10 ms (the engine solves them to 1 ms)."""
+    from screener import synth
+    from screener.timeutil import datetime_to_jd, parse_iso
+
+    jd0, fr0 = datetime_to_jd(parse_iso("2026-12-02T00:00:00Z"))
+    prim = synth.circular("90000001", "P", 550.0, 53.0, 10.0, 20.0, jd0, fr0, bstar=0.0)
+    secs = [synth.circular("90000002", "S1", 551.0, 53.0, 10.0, 20.0 + 0.16, jd0, fr0, bstar=0.0),
+            synth.circular("90000003", "S2", 549.0, 53.0, 10.0, 20.0 - 0.40, jd0, fr0, bstar=0.0)]
+    res = screen(ScreeningRequest(catalog=secs, primaries=[prim], jd0=jd0, fr0=fr0,
+                                  duration_s=86400.0, volume=Volume.sphere(5.0)))
+    t = np.arange(0.0, 86400.0 + 0.5, 1.0)
+    sats = SatrecArray([reference_satrec(x) for x in [prim] + secs])
+    e, r, _ = sats.sgp4(np.full(len(t), jd0), fr0 + t / 86400.0)
+    assert (e == 0).all()
+    checked = 0
+    for enc in res.encounters:
+        k = 1 + [s.catalog_id for s in secs].index(enc.secondary)
+        rng_km = np.linalg.norm(r[k] - r[0], axis=1) - 5.0
+        i0 = int(round(enc.tca_s))
+        assert rng_km[i0] < 0
+        out = np.nonzero(rng_km > 0)[0]
+        before, after = out[out < i0], out[out > i0]
+        for got, idx in ((enc.entry_s, before[-1] if len(before) else None),
+                         (enc.exit_s, after[0] - 1 if len(after) else None)):
+            if idx is None:
+                assert got is None
+                continue
+            f0, f1 = rng_km[idx], rng_km[idx + 1]          # a sign change between idx and idx+1
+            want = t[idx] + f0 / (f0 - f1)
+            assert got == pytest.approx(want, abs=0.01)
+            checked += 1
+    assert checked >= 3 and all(x.relative_speed_km_s < 0.01 for x in res.encounters)

@@ -17,6 +17,7 @@ from typing import Callable
 
 from ..config import Config
 from ..errors import ScreenerError, StoreError
+from ..gcpause import gc_paused
 from ..risk.attach import attach_risk
 from ..risk.covariance import CovarianceSources
 from ..screening import ScreeningRequest, Volume, screen
@@ -136,6 +137,7 @@ def wants_workers(encs) -> bool:
     return len(encs) >= PARALLEL_RISK_MIN or n_slow >= PARALLEL_RISK_MIN_SLOW
 
 
+@gc_paused
 def risk_in_workers(encs, oems, configured, history, radii, thresholds, workers: int,
                     executor=None, progress: Progress | None = None) -> None:
     """attach_risk over chunks of the encounters on worker processes; each chunk carries only

@@ -8,6 +8,7 @@ from typing import Callable, Mapping, Sequence
 
 import numpy as np
 
+from ..gcpause import gc_paused
 from ..screening.encounter import Encounter
 from .assess import assess_many
 from .attention import Thresholds
@@ -37,6 +38,7 @@ def _regimes(encounters: Sequence[Encounter]) -> list[str]:
     return regimes_many(r, v)
 
 
+@gc_paused
 def attach_risk(encounters: Sequence[Encounter], sources: CovarianceSources,
                 radius_m: Callable[[str], float] | None = None,
                 thresholds: Thresholds = Thresholds(),
@@ -94,6 +96,7 @@ def attach_risk(encounters: Sequence[Encounter], sources: CovarianceSources,
         e.risk = out
 
 
+@gc_paused
 def risk_of_chunk(packed: dict, oems, configured, history, radii: dict,
                   thresholds: Thresholds) -> list[dict]:
     """Risk for a chunk of encounters in a worker process: everything it needs comes as plain

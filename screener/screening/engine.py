@@ -20,13 +20,14 @@ import numpy as np
 from ..elements.oem import Oem
 from ..elements.record import ElementSet
 from ..errors import ScreenerError
+from ..gcpause import gc_paused
 from ..propagation import codes
 from ..propagation.ephemeris import Population
 from ..workers import result_of
 from .encounter import (SLOW_RELATIVE_SPEED_KM_S, Encounter, add_range_profiles, fill_altitudes,
                         make_encounters)
 from .filters import apogee_perigee_mask, bounds_array, radial_bounds_km
-from .refine import brackets_from_candidates, crossing_times, solve_tcas
+from .refine import VolumeCrossings, brackets_from_candidates, solve_tcas
 from .ric import to_ric
 from .sieve import all_pairs_candidates, fleet_candidates, top_speeds
 from .volume import Volume
@@ -146,6 +147,7 @@ def _grid(t0: float, t1: float, step: float) -> np.ndarray:
     return np.linspace(t0, t1, n + 1)
 
 
+@gc_paused
 def run_task(task: Task) -> TaskResult:
     """Run one task to completion; pure function of its input (safe in any worker)."""
     t_start = time.perf_counter()
@@ -312,10 +314,10 @@ def _refine(pop: Population, brackets: list, task: Task, cutoff: dict[str, float
     inside = task.volume.contains(ric)
     encs = [e for e, k in zip(encs, inside) if k]
     keep = keep[inside]
+    crossings = VolumeCrossings(pop, task.jd0, task.fr0, task.volume, 0.0, task.window_s)
     for e, a, b in zip(encs, bi[keep].tolist(), bj[keep].tolist()):
         if e.relative_speed_km_s < SLOW_RELATIVE_SPEED_KM_S:
-            e.entry_s, e.exit_s = crossing_times(pop, a, b, task.jd0, task.fr0, e.tca_s,
-                                                 task.volume, 0.0, task.window_s)
+            e.entry_s, e.exit_s = crossings.times(a, b, e.tca_s)
     add_range_profiles(pop, encs, bi[keep], bj[keep])
     return encs
 
@@ -460,6 +462,7 @@ def plan_tasks(req: ScreeningRequest, spans: int | None = None) -> list[Task]:
     return tasks
 
 
+@gc_paused
 def screen(req: ScreeningRequest, progress: Progress | None = None, cancel=None,
            executor=None) -> ScreeningResult:
     """Run a screening.  progress(stage, done, total) is called as tasks finish; `cancel` is
@@ -499,6 +502,7 @@ def screen(req: ScreeningRequest, progress: Progress | None = None, cancel=None,
     return gather(req, results, time.perf_counter() - t0)
 
 
+@gc_paused
 def gather(req: ScreeningRequest, results: Sequence[TaskResult], wall_s: float) -> ScreeningResult:
     encs = _dedupe([e for r in results for e in r.encounters])
     encs.sort(key=lambda e: e.tca_s)

@@ -11,6 +11,7 @@ Each bracket is then solved with Brent's method on the propagator itself to `tca
 from __future__ import annotations
 
 import dataclasses
+import math
 
 import numpy as np
 from scipy.optimize import brentq
@@ -189,51 +190,79 @@ def solve_tcas(pop, brackets: list[Bracket], jd0: float, fr0: float, t_min_s: fl
     return out
 
 
-CROSSING_FIRST_BLOCK = 20   # samples in the first block scanned each side of TCA (doubling)
+CROSSING_STEP_S = 30.0       # the volume function's sampling step around slow passes
+CROSSING_BLOCK = 64           # samples per cached block (32 min at 30 s)
+CROSSING_MAX_SPAN_S = 86400.0
 
 
-def crossing_times(pop, i: int, j: int, jd0: float, fr0: float, tca_s: float, volume,
-                   t_min_s: float, t_max_s: float, step_s: float = 30.0,
-                   max_span_s: float = 86400.0) -> tuple[float | None, float | None]:
-    """Entry and exit times (s) of the secondary through the volume around TCA (slow passes).
-    None where the secondary is still inside at the window's edge (or `max_span_s` away).
+class VolumeCrossings:
+    """Entry and exit times (s) of secondaries through the volume around the TCAs of slow
+    passes.  For each pair, g = volume norm - 1 is sampled every CROSSING_STEP_S on one grid
+    anchored at the window start, in blocks of CROSSING_BLOCK that are computed once: the
+    recurring passes of a co-orbiting pair, minutes or hours apart, share them.  From each TCA
+    the samples are scanned outward to the first one outside the volume; the crossing between
+    it and the sample before (or TCA) is then solved with Brent's method to 1 ms.  A side is
+    None where the secondary is still inside at the window's edge (or CROSSING_MAX_SPAN_S
+    away), or a state is not usable before it leaves."""
 
-    Each side is sampled every `step_s` outward from TCA in blocks that double in length
-    (most slow passes leave the volume within minutes), until the first sample outside; the
-    crossing between it and the sample before is then solved with Brent's method."""
-    from .ric import to_ric
+    def __init__(self, pop, jd0: float, fr0: float, volume, t_min_s: float, t_max_s: float):
+        self.pop, self.jd0, self.fr0, self.volume = pop, jd0, fr0, volume
+        self.t_min_s, self.t_max_s = t_min_s, t_max_s
+        self._blocks: dict[tuple[int, int, int], np.ndarray] = {}
 
-    def g_many(t):
-        r, v, c = pop.states(jd0, fr0, t, rows=[i, j])
-        g = volume.norm(to_ric(r[1] - r[0], r[0], v[0])) - 1.0
+    def _g(self, i: int, j: int, t_s: np.ndarray) -> np.ndarray:
+        from .ric import to_ric
+
+        r, v, c = self.pop.states(self.jd0, self.fr0, t_s, rows=[i, j])
+        g = self.volume.norm(to_ric(r[1] - r[0], r[0], v[0])) - 1.0
         return np.where((c[0] == 0) & (c[1] == 0), g, np.nan)
 
-    def g_scalar(tt):
-        ri, vi, _ = pop.state_at(i, jd0, fr0, tt)
-        rj, vj, _ = pop.state_at(j, jd0, fr0, tt)
-        return float(volume.norm(to_ric(rj - ri, ri, vi))) - 1.0
+    def _block(self, i: int, j: int, b: int) -> np.ndarray:
+        key = (i, j, b)
+        if key not in self._blocks:
+            k = b * CROSSING_BLOCK + np.arange(CROSSING_BLOCK)
+            self._blocks[key] = self._g(i, j, k * CROSSING_STEP_S)
+        return self._blocks[key]
 
-    def edge(sign, end):
-        prev, k, block = tca_s, 1, CROSSING_FIRST_BLOCK
+    def _solve(self, i: int, j: int, t_a: float, t_b: float) -> float:
+        from .ric import to_ric
+
+        def g(t_s):
+            ri, vi, _ = self.pop.state_at(i, self.jd0, self.fr0, t_s)
+            rj, vj, _ = self.pop.state_at(j, self.jd0, self.fr0, t_s)
+            return float(self.volume.norm(to_ric(rj - ri, ri, vi))) - 1.0
+
+        return brentq(g, min(t_a, t_b), max(t_a, t_b), xtol=1e-3)
+
+    def _edge(self, i: int, j: int, tca_s: float, sign: int, end_s: float) -> float | None:
+        step, n = CROSSING_STEP_S, CROSSING_BLOCK
+        k = math.floor(tca_s / step) + 1 if sign > 0 else math.ceil(tca_s / step) - 1
+        prev = tca_s
         while True:
-            t = tca_s + sign * step_s * np.arange(k, k + block)
-            last = sign * (t - end) >= 0.0
-            if last.any():
-                t = np.r_[t[~last], end]
-            g = g_many(t)
-            for tk, gk in zip(t.tolist(), g.tolist()):
-                if not np.isfinite(gk):
+            b = k // n
+            g_blk = self._block(i, j, b)
+            pos = np.arange(k - b * n, n) if sign > 0 else np.arange(k - b * n, -1, -1)
+            ks = b * n + pos
+            beyond = sign * (ks * step - end_s) >= 0.0
+            n_in = int(np.argmax(beyond)) if beyond.any() else len(pos)
+            g = g_blk[pos[:n_in]]
+            out = ~(g <= 0.0)                  # outside, or not usable
+            if out.any():
+                q = int(np.argmax(out))
+                if not np.isfinite(g[q]):
                     return None
-                if gk > 0:
-                    a, b = sorted((prev, tk))
-                    return brentq(g_scalar, a, b, xtol=1e-3)
-                prev = tk
-            if last.any() or prev == end:
-                return None
-            k, block = k + block, 2 * block
+                return self._solve(i, j, prev if q == 0 else float(ks[q - 1] * step),
+                                   float(ks[q] * step))
+            if n_in:
+                prev = float(ks[n_in - 1] * step)
+            if n_in < len(pos):                # the end of the search comes first
+                g_end = float(self._g(i, j, np.array([end_s]))[0])
+                return self._solve(i, j, prev, end_s) if g_end > 0.0 else None
+            k = b * n + (n if sign > 0 else -1)
 
-    if not (g_many(np.array([tca_s]))[0] <= 0):
-        return None, None
-    lo = max(t_min_s, tca_s - max_span_s)
-    hi = min(t_max_s, tca_s + max_span_s)
-    return edge(-1.0, lo), edge(1.0, hi)
+    def times(self, i: int, j: int, tca_s: float) -> tuple[float | None, float | None]:
+        if not (self._g(i, j, np.array([tca_s]))[0] <= 0):
+            return None, None
+        lo = max(self.t_min_s, tca_s - CROSSING_MAX_SPAN_S)
+        hi = min(self.t_max_s, tca_s + CROSSING_MAX_SPAN_S)
+        return self._edge(i, j, tca_s, -1, lo), self._edge(i, j, tca_s, 1, hi)

@@ -10,6 +10,7 @@ import time
 import orjson
 
 from .. import __version__
+from ..gcpause import gc_paused
 from ..risk.attention import LEVEL_RANK
 from ..timeutil import iso_z, jd_to_datetime
 from ..elements.omm import omm_fields
@@ -59,6 +60,7 @@ def _elset_rows(run_id, req, encounters):
     return rows
 
 
+@gc_paused
 def commit_run(store: Store, *, name: str, config_snapshot: dict, inputs_files: list[dict],
                result, started_utc: str, thresholds, tca_tolerance_s: float,
                log_path: str | None = None):
