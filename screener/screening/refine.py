@@ -17,7 +17,6 @@ import numpy as np
 from scipy.optimize import brentq
 
 from ..constants import MU_EARTH_KM3_S2 as MU
-from ..propagation.ephemeris import hermite_cubic
 
 SUBDIVISIONS = 16
 TCA_TOL_S = 1e-6          # Brent's tolerance on TCA (the brief asks 1 ms; we keep 1 µs)
@@ -35,39 +34,25 @@ class Bracket:
 
 def brackets_from_candidates(t_grid_s, r, v, cand_i, cand_j, cand_k, reach_km,
                              row_of) -> list[Bracket]:
-    """Vectorised over candidates.  r, v are (rows, m, 3) grid states; row_of maps population
-    index -> row of r/v.  Returns brackets whose estimated miss is within reach_km."""
+    """r, v are (rows, m, 3) grid states; row_of maps population index -> row of r/v.
+    Returns brackets whose estimated miss is within reach_km, one per sign change of f from
+    negative to non-negative among the candidate intervals' SUBDIVISIONS sub-intervals (the
+    compiled `bracket_scan.bracket_scan`)."""
+    from .bracket_scan import bracket_scan      # numba compiles (or loads) it on first use
+
     if len(cand_i) == 0:
         return []
     h = t_grid_s[1] - t_grid_s[0]
-    ri, rj = row_of[cand_i], row_of[cand_j]
-    k = cand_k
-    rho0 = r[rj, k] - r[ri, k]
-    rho1 = r[rj, k + 1] - r[ri, k + 1]
-    w0 = (v[rj, k] - v[ri, k]) * h
-    w1 = (v[rj, k + 1] - v[ri, k + 1]) * h
-    u = np.linspace(0.0, 1.0, SUBDIVISIONS + 1)
-    # (n, S+1, 3)
-    pos, vel = hermite_cubic(u[None, :, None], rho0[:, None], w0[:, None], rho1[:, None],
-                             w1[:, None], h)
-    f = np.einsum("nsi,nsi->ns", pos, vel)
-    down_up = (f[:, :-1] < 0.0) & (f[:, 1:] >= 0.0)
-    n_idx, s_idx = np.nonzero(down_up)
-    out = []
-    if len(n_idx) == 0:
-        return out
-    # linear-motion estimate of the minimum inside the sub-interval
-    p = pos[n_idx, s_idx]
-    q = vel[n_idx, s_idx]
+    cand_k = np.asarray(cand_k, np.int64)
+    found = bracket_scan(np.ascontiguousarray(r, float), np.ascontiguousarray(v, float),
+                         np.ascontiguousarray(row_of[cand_i], np.int64),
+                         np.ascontiguousarray(row_of[cand_j], np.int64), cand_k, float(h),
+                         SUBDIVISIONS, float(reach_km))
+    n_idx, s_idx = found[:, 0].astype(np.int64), found[:, 1].astype(np.int64)
     dt_sub = h / SUBDIVISIONS
-    tau = np.clip(-np.einsum("ni,ni->n", p, q) / np.maximum(np.einsum("ni,ni->n", q, q), 1e-30),
-                  0.0, dt_sub)
-    est = np.linalg.norm(p + q * tau[:, None], axis=1)
-    keep = est <= reach_km
-    t0 = t_grid_s[k[n_idx]] + s_idx * dt_sub
-    for a, b, lo, e in zip(cand_i[n_idx][keep], cand_j[n_idx][keep], t0[keep], est[keep]):
-        out.append(Bracket(int(a), int(b), float(lo), float(lo + dt_sub), float(e)))
-    return out
+    t0 = t_grid_s[cand_k[n_idx]] + s_idx * dt_sub
+    return [Bracket(int(a), int(b), float(lo), float(lo + dt_sub), float(e))
+            for a, b, lo, e in zip(cand_i[n_idx], cand_j[n_idx], t0, found[:, 2])]
 
 
 def range_rate_function(pop, i: int, j: int, jd0: float, fr0: float):
