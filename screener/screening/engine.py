@@ -363,19 +363,39 @@ def _apply_decay(pop: Population, t: np.ndarray, code: np.ndarray,
     return out
 
 
-def decay_cutoffs(catalog: Sequence[ElementSet], jd0: float, fr0: float,
-                  duration_s: float) -> dict[str, float]:
+DECAY_PROBE_MIN_PARALLEL = 200   # objects below which the probe is not split over workers
+
+
+def decay_cutoffs(catalog: Sequence[ElementSet], jd0: float, fr0: float, duration_s: float,
+                  executor=None, parts: int = 1) -> dict[str, float]:
     """First re-entry time in the window (s) of each low-perigee object that re-enters: a
     cheap whole-window probe, so that every task ignores it from then on.  Probed at
     DECAY_COARSE_STEP_S, then at DECAY_PROBE_STEP_S over the coarse interval before each first
     decay found (SGP4's decay codes persist once reached, and an object whose perigee dips
     under the 100 km gate dips deeper on each later pass), so the cutoff is the fine probe's
     for a tenth of its samples: low-perigee objects are mostly transfer orbits on the slower
-    deep-space branch, and the whole-window probe ran serially before any task started."""
-    from ..propagation.sgp4_batch import Sgp4Batch
+    deep-space branch.  With an executor the objects are probed in `parts` chunks on its
+    workers (the probe runs before any task can start)."""
     from ..constants import RE_WGS72_KM
 
     low = [r for r in catalog if r.orbit().perigee_radius_km - RE_WGS72_KM < DECAY_PERIGEE_KM]
+    if executor is None or parts <= 1 or len(low) < DECAY_PROBE_MIN_PARALLEL:
+        return _probe_decay(low, jd0, fr0, duration_s)
+    size = -(-len(low) // parts)
+    futures = [executor.submit(_probe_decay, low[a:a + size], jd0, fr0, duration_s)
+               for a in range(0, len(low), size)]
+    out: dict[str, float] = {}
+    for fut in futures:
+        out.update(result_of(fut, "a re-entry probe"))
+    return out
+
+
+@gc_paused
+def _probe_decay(low: Sequence[ElementSet], jd0: float, fr0: float,
+                 duration_s: float) -> dict[str, float]:
+    """decay_cutoffs for these objects, in this process."""
+    from ..propagation.sgp4_batch import Sgp4Batch
+
     if not low:
         return {}
     t = _grid(0.0, duration_s, DECAY_COARSE_STEP_S)
@@ -423,9 +443,9 @@ def spans_for_memory(n_objects: int, duration_s: float, step_s: float,
     return max(1, math.ceil((duration_s / step_s + 1) / max(per_span_samples, 8.0)))
 
 
-def plan_tasks(req: ScreeningRequest, spans: int | None = None) -> list[Task]:
+def plan_tasks(req: ScreeningRequest, spans: int | None = None, executor=None) -> list[Task]:
     """Cut a request into tasks.  Fleet mode first drops catalog objects that no primary can
-    reach by the apogee/perigee filter."""
+    reach by the apogee/perigee filter.  `executor`, if given, runs the re-entry probe."""
     if req.duration_s <= 0:
         raise ScreenerError("the screening window must be longer than zero")
     spans = spans or max(1, 2 * req.workers)
@@ -449,7 +469,7 @@ def plan_tasks(req: ScreeningRequest, spans: int | None = None) -> list[Task]:
         chunks = [survivors[a:a + MAX_SECONDARIES_PER_TASK]
                   for a in range(0, len(survivors), MAX_SECONDARIES_PER_TASK)] or [[]]
     cut = decay_cutoffs(list(req.primaries) + [s for c in chunks for s in c], req.jd0, req.fr0,
-                        req.duration_s)
+                        req.duration_s, executor, 2 * req.workers)
     tasks = []
     for chunk in chunks:
         ids = {r.catalog_id for r in chunk} | {r.catalog_id for r in req.primaries}
@@ -471,23 +491,23 @@ def screen(req: ScreeningRequest, progress: Progress | None = None, cancel=None,
     if req.primary_oems:
         Population(oems=req.primary_oems).check_coverage(req.jd0, req.fr0, 0.0, req.duration_s)
     t0 = time.perf_counter()
-    tasks = plan_tasks(req)
     report = progress or (lambda stage, done, total: None)
-    report("screening", 0, len(tasks))
     results: list[TaskResult] = []
-    if executor is None and req.workers <= 1:
-        for n, task in enumerate(tasks, start=1):
-            if cancel is not None and cancel.is_set():
-                raise Cancelled("screening cancelled")
-            results.append(run_task(task))
-            report("screening", n, len(tasks))
-    else:
-        own = executor is None
-        if own:
-            from ..workers import spawn_pool
+    own = executor is None and req.workers > 1
+    if own:
+        from ..workers import spawn_pool
 
-            executor = spawn_pool(req.workers)
-        try:
+        executor = spawn_pool(req.workers)
+    try:
+        tasks = plan_tasks(req, executor=executor)
+        report("screening", 0, len(tasks))
+        if executor is None:
+            for n, task in enumerate(tasks, start=1):
+                if cancel is not None and cancel.is_set():
+                    raise Cancelled("screening cancelled")
+                results.append(run_task(task))
+                report("screening", n, len(tasks))
+        else:
             futures = [executor.submit(run_task, t) for t in tasks]
             for n, fut in enumerate(as_completed(futures), start=1):
                 if cancel is not None and cancel.is_set():
@@ -496,9 +516,9 @@ def screen(req: ScreeningRequest, progress: Progress | None = None, cancel=None,
                     raise Cancelled("screening cancelled")
                 results.append(result_of(fut, "a screening task"))
                 report("screening", n, len(tasks))
-        finally:
-            if own:
-                executor.shutdown(wait=True, cancel_futures=True)
+    finally:
+        if own:
+            executor.shutdown(wait=True, cancel_futures=True)
     return gather(req, results, time.perf_counter() - t0)
 
 
