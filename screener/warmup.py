@@ -1,6 +1,7 @@
 """Compile the numba functions now (or load them from numba's cache): the two coarse sieves,
-the bracket search, the two-body fill and the along-path Monte Carlo's kernels.  `make` runs this after installing and the test session before its
-first test, so that no screening spends the compile time (about 10 s) on its first call.
+the bracket search, the two-body fill and the along-path Monte Carlo's kernels.  `make` runs
+this after installing and the test session before its first test, so that no screening spends
+the compile time (about 10 s) on its first call.
 
     python -m screener.warmup
 """

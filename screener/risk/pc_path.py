@@ -33,13 +33,11 @@ TREE_MIN_SEGMENTS = 128         # ... and for fewer segments than this (measured
 
 @dataclasses.dataclass(frozen=True)
 class _Path:
-    """The path segments that can be hit, with the products the hit test reuses, and an index
-    of points along them every hbr/2 (see hits)."""
+    """The path segments that can be hit, and an index of points along them every hbr/2
+    (see hits)."""
     a: np.ndarray        # (s, 3) segment starts, km
     seg: np.ndarray      # (s, 3) segment vectors
     seg2: np.ndarray     # (s,) squared lengths
-    a_seg: np.ndarray    # (s,) a . seg
-    a2: np.ndarray       # (s,) |a|^2
     tree: object = None  # cKDTree of points along the segments, spacing at most `spacing_km`
     spacing_km: float = 0.0
 
@@ -61,8 +59,7 @@ class _Path:
             pts = np.concatenate([a[k] + np.linspace(0.0, 1.0, n)[:, None] * seg[k]
                                   for k, n in enumerate(n_pts)])
             tree = cKDTree(pts)
-        return cls(a, seg, seg2, np.einsum("sk,sk->s", a, seg), np.einsum("sk,sk->s", a, a),
-                   tree, spacing)
+        return cls(a, seg, seg2, tree, spacing)
 
     def hits(self, delta: np.ndarray, hbr_km: float) -> np.ndarray:
         """Which offsets (n, 3) bring the shifted path within hbr of the origin, i.e. which
@@ -93,11 +90,12 @@ class _Path:
 
 def pc_path_monte_carlo(path_km: np.ndarray, cov_km2: np.ndarray, hbr_km: float,
                         samples: int = PATH_MC_SAMPLES, seed: int = 1,
-                        chunk: int = 8_192) -> MonteCarloPc:
+                        chunk: int = 8_192, near: "_Path | None" = None) -> MonteCarloPc:
     """Plain Monte Carlo.  path_km: (m, 3) relative positions (secondary - primary) around
-    TCA, inertial, km; cov_km2: 3x3 combined position covariance, same frame."""
+    TCA, inertial, km; cov_km2: 3x3 combined position covariance, same frame.  `near`: the
+    path's `_Path.near`, when the caller has built it already."""
     cov = np.asarray(cov_km2, float)
-    path = _Path.near(path_km, cov, hbr_km)
+    path = near or _Path.near(path_km, cov, hbr_km)
     if not len(path.a):
         return wilson(0, samples)
     rng = np.random.default_rng(seed)
@@ -236,14 +234,15 @@ def pc_path_resolved(path_km: np.ndarray, cov_km2: np.ndarray, hbr_km: float,
         # find none, and the rigorous bound is a better upper end than its interval
         return MonteCarloPc(0.0, 0.0, bound, 0), True
     done = 0
+    near = _Path.near(path_km, np.asarray(cov_km2, float), hbr_km)    # once for every batch
     if bound >= PLAIN_BATCH_MIN_BOUND * max(thresholds, default=0.0) or samples >= max_samples:
-        mc = pc_path_monte_carlo(path_km, cov_km2, hbr_km, samples=samples, seed=seed)
+        mc = pc_path_monte_carlo(path_km, cov_km2, hbr_km, samples=samples, seed=seed,
+                                 near=near)
         est = MonteCarloPc(mc.pc, min(mc.lo99, bound), min(mc.hi99, bound), mc.samples)
         if clear(est) or samples >= max_samples:
             return est, clear(est)
         done = samples
     batch, k = IS_FIRST_BATCH, 0
-    near = _Path.near(path_km, np.asarray(cov_km2, float), hbr_km)    # once for every batch
     while True:
         est = pc_path_importance(path_km, cov_km2, hbr_km, samples=batch, seed=seed + 1 + k,
                                  near=near)

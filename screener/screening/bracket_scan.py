@@ -2,7 +2,7 @@
 the candidates, no (candidates x 17 x 3) temporaries.
 
 For candidate n (objects i, j, interval k) the relative motion is the cubic Hermite of the two
-objects' end states (`ephemeris.hermite_cubic`, compiled here too).  f = rho . rho_dot is
+objects' end states (`ephemeris.hermite_cubic`, as compiled in `cells`).  f = rho . rho_dot is
 sampled at `subdivisions + 1` points; each sub-interval where f goes from negative to
 non-negative holds a range minimum, estimated by the straight line through the sub-interval's
 start (position and velocity there), clipped to the sub-interval.
@@ -15,9 +15,7 @@ import math
 import numpy as np
 from numba import njit
 
-from ..propagation.ephemeris import hermite_cubic
-
-_hermite = njit(cache=True, nogil=True)(hermite_cubic)
+from .cells import hermite_compiled
 
 
 @njit(cache=True, nogil=True)
@@ -30,7 +28,7 @@ def _basis(subdivisions, h_s):
         for q in range(4):
             unit = np.zeros(4)
             unit[q] = 1.0
-            basis[s, q, 0], basis[s, q, 1] = _hermite(u, unit[0], unit[1], unit[2], unit[3], h_s)
+            basis[s, q, 0], basis[s, q, 1] = hermite_compiled(u, unit[0], unit[1], unit[2], unit[3], h_s)
     return basis
 
 

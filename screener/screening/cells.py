@@ -32,7 +32,7 @@ from ..propagation.ephemeris import hermite_cubic
 WRAP = 64     # cells per axis of the wrapped grid: 64^3 bins (2 MB of counts)
 
 
-_hermite = njit(cache=True, nogil=True)(hermite_cubic)
+hermite_compiled = njit(cache=True, nogil=True)(hermite_cubic)   # also used by bracket_scan
 
 
 @njit(cache=True, nogil=True)
@@ -175,7 +175,7 @@ def grid_pairs(r, v, usable, h_s, reach_km, substeps, slow_km_s):
             acc[i] = _accel_bound(r0[i], v0h[i], r1[i], v1h[i], h_s)
         s = np.empty(q_n)
         for q in range(substeps):
-            pos, vel = _hermite((q + 0.5) / substeps, r0, v0h, r1, v1h, h_s)
+            pos, vel = hermite_compiled((q + 0.5) / substeps, r0, v0h, r1, v1h, h_s)
             for i in range(q_n):
                 s[i] = math.sqrt(vel[i, 0] ** 2 + vel[i, 1] ** 2 + vel[i, 2] ** 2) + acc[i] * half
             slow = np.nonzero(s <= slow_km_s)[0]

@@ -390,7 +390,6 @@ def decay_cutoffs(catalog: Sequence[ElementSet], jd0: float, fr0: float, duratio
     return out
 
 
-@gc_paused
 def _probe_decay(low: Sequence[ElementSet], jd0: float, fr0: float,
                  duration_s: float) -> dict[str, float]:
     """decay_cutoffs for these objects, in this process."""
@@ -522,7 +521,6 @@ def screen(req: ScreeningRequest, progress: Progress | None = None, cancel=None,
     return gather(req, results, time.perf_counter() - t0)
 
 
-@gc_paused
 def gather(req: ScreeningRequest, results: Sequence[TaskResult], wall_s: float) -> ScreeningResult:
     encs = _dedupe([e for r in results for e in r.encounters])
     encs.sort(key=lambda e: e.tca_s)
