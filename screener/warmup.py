@@ -1,5 +1,5 @@
 """Compile the numba functions now (or load them from numba's cache): the two coarse sieves,
-the bracket search, the two-body fill and the along-path Monte Carlo's kernels.  `make` runs
+the bracket search, the state gates, the two-body fill and the along-path Monte Carlo's kernels.  `make` runs
 this after installing and the test session before its first test, so that no screening spends
 the compile time (about 10 s) on its first call.
 
@@ -13,6 +13,7 @@ import numpy as np
 
 def warm() -> None:
     from .propagation.kepler_fill import kepler_states
+    from .propagation.sgp4_batch import screen_states
     from .risk.path_kernels import log_mixture, segment_hits
     from .screening.refine import brackets_from_candidates
     from .screening.sieve import all_pairs_candidates, fleet_candidates, top_speeds
@@ -27,6 +28,7 @@ def warm() -> None:
     fleet_candidates(r[0], v[0], usable[0], r, v, usable, np.array([1]), 240.0, 7.0,
                      top_speeds(v[1:]))
     kepler_states(r[0], v[0], np.array([10.0, 20.0]))
+    screen_states(r.copy(), v.copy(), np.zeros((2, 2), np.int8))
     one = np.array([0])
     brackets_from_candidates(np.array([0.0, 120.0]), r, v, one, one + 1, one, 7.0, np.arange(2))
     seg = r[1]

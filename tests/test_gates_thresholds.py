@@ -91,6 +91,40 @@ def test_altitude_gate_marks_a_sample_sgp4_itself_accepts():
     assert Sgp4Batch([rec]).state_at(0, rec.epoch_jd, rec.epoch_fr, t_min[k] * 60.0)[2] == codes.BELOW_100_KM
 
 
+def test_compiled_gates_agree_with_the_numpy_gates():
+    """The one-pass compiled gates (screen_states, used on every batch) give the codes and the
+    NaNs of apply_gates written out in numpy, on states chosen to hit each gate, their edges
+    and SGP4 error codes (the gates' thresholds: 100 km altitude, 500,000 km radius, 1.05 x
+    escape speed)."""
+    from screener.constants import MAX_RADIUS_KM, MIN_ALTITUDE_KM, MU_EARTH_KM3_S2
+    from screener.propagation.sgp4_batch import apply_gates, screen_states
+
+    rng = np.random.default_rng(7)
+    n = 4000
+    radius = np.concatenate([rng.uniform(RE_WGS72_KM, RE_WGS72_KM + 300.0, n // 4),
+                             rng.uniform(6500.0, 50000.0, n // 4),
+                             rng.uniform(0.9, 1.1, n // 4) * MAX_RADIUS_KM,
+                             # 1 mm either side of the 100 km edge (at the edge itself the
+                             # last bit of the rounding decides)
+                             RE_WGS72_KM + MIN_ALTITUDE_KM + rng.choice([-1e-6, 1e-6], n // 4)])
+    u = rng.normal(size=(n, 3))
+    r = radius[:, None] * u / np.linalg.norm(u, axis=1)[:, None]
+    speed = np.sqrt(2.0 * MU_EARTH_KM3_S2 / radius) * rng.uniform(0.5, 1.1, n)
+    w = rng.normal(size=(n, 3))
+    v = speed[:, None] * w / np.linalg.norm(w, axis=1)[:, None]
+    code = np.where(rng.uniform(size=n) < 0.05, rng.integers(1, 7, n), 0).astype(np.int8)
+    r, v, code = r.reshape(40, 100, 3), v.reshape(40, 100, 3), code.reshape(40, 100)
+    want_r, want_v, want_c = r.copy(), v.copy(), code.copy()
+    failed = want_c != codes.OK
+    want_r[failed], want_v[failed] = np.nan, np.nan
+    apply_gates(want_r, want_v, want_c)
+    screen_states(r, v, code)
+    assert set(np.unique(want_c)) >= {codes.OK, codes.BELOW_100_KM, codes.IMPLAUSIBLE_SPEED,
+                                      codes.IMPLAUSIBLE_RADIUS, 1, 6}
+    assert np.array_equal(code, want_c)
+    assert np.array_equal(r, want_r, equal_nan=True) and np.array_equal(v, want_v, equal_nan=True)
+
+
 # ---- maximum Pc ------------------------------------------------------------------------------
 def _line_max_scipy(d, R):
     """max over sigma of P(d - R < X < d + R), X ~ N(0, sigma^2)."""

@@ -192,7 +192,10 @@ class Population:
         code = np.empty((n, m), dtype=np.int8)
         ns = len(self.records)
         sg = np.nonzero(rows < ns)[0]
-        if len(sg):
+        k = len(sg)
+        if k and sg[-1] == k - 1:      # the SGP4 rows first (as always here): written in place
+            self._batch.states(jd0, fr0, t_s, rows=rows[:k], out=(r[:k], v[:k], code[:k]))
+        elif k:
             rr, vv, cc = self._batch.states(jd0, fr0, t_s, rows=rows[sg])
             r[sg], v[sg], code[sg] = rr, vv, cc
         for pos in np.nonzero(rows >= ns)[0]:
