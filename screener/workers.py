@@ -3,6 +3,7 @@
 A screening's spawn pool is started with `worker_initializer(os.getpid())`: each worker then
 watches its parent and leaves at once when the parent is gone (kill -9 of a nightly run, a
 crashed TUI), instead of computing on for minutes and holding a cron wrapper's pipes open.
+Each worker also keeps the memory its tasks free for the next one (memory.py).
 """
 
 from __future__ import annotations
@@ -22,6 +23,9 @@ def _watch(parent_pid: int) -> None:
 
 
 def worker_initializer(parent_pid: int) -> None:
+    from .memory import keep_freed_memory
+
+    keep_freed_memory()
     threading.Thread(target=_watch, args=(parent_pid,), name="parent-watch", daemon=True).start()
 
 

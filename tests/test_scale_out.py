@@ -61,6 +61,31 @@ def test_paused_collector_comes_back_after_an_error_and_when_nested():
     assert gc.isenabled()
 
 
+def test_kept_freed_memory_is_reused_and_can_be_turned_off():
+    """memory.keep_freed_memory on glibc (mallopt's M_MMAP_MAX and M_TRIM_THRESHOLD, glibc's
+    documented tunables): in a fresh process it takes effect once, large arrays freed and
+    allocated again still work, and SCREENER_KEEP_FREED_MEMORY=0 leaves malloc alone."""
+    import subprocess
+    import sys
+
+    probe = ("import numpy as np\n"
+             "from screener.memory import keep_freed_memory\n"
+             "ok = keep_freed_memory()\n"
+             "for k in range(3):\n"
+             "    a = np.full(20_000_000, float(k)); assert a.sum() == 2e7 * k; del a\n"
+             "print(ok, keep_freed_memory())\n")
+    env = {k: v for k, v in os.environ.items() if k != "SCREENER_KEEP_FREED_MEMORY"}
+    out = subprocess.run([sys.executable, "-c", probe], env=env, capture_output=True, text=True,
+                         check=True).stdout.split()
+    import platform
+
+    glibc = sys.platform.startswith("linux") and platform.libc_ver()[0] == "glibc"
+    assert out == ([str(glibc)] * 2 if glibc else ["False", "False"])
+    off = subprocess.run([sys.executable, "-c", probe], capture_output=True, text=True, check=True,
+                         env={**env, "SCREENER_KEEP_FREED_MEMORY": "0"}).stdout.split()
+    assert off == ["False", "False"]
+
+
 def test_unreachable_scheduler_is_a_clear_error():
     p = screener("screen", "--catalog", os.path.join(DEMO, "catalog.tle"), "--start",
                  "2026-12-02T00:00:00Z", "--days", "0.1", "--primaries",

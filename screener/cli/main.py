@@ -91,6 +91,9 @@ def cmd_screen(args) -> int:
     from .progress import make_progress
     from .summary import render
 
+    from ..memory import keep_freed_memory
+
+    keep_freed_memory()      # this process runs the risk and the store commit (memory.py)
     cfg = config_from_args(args)
     prog = make_progress(args.quiet)
     try:

@@ -83,7 +83,9 @@ def cmd_run(args) -> int:
     from .main import EXIT_ACT, EXIT_OK, ONE_OFF, config_from_args, write_result_json
     from .progress import make_progress
     from .summary import render
+    from ..memory import keep_freed_memory
 
+    keep_freed_memory()      # this process runs the risk and the store commit (memory.py)
     if args.config:
         if args.catalog or args.primaries or args.start:
             raise ScreenerError("give either --config or the one-off options (--catalog, --start, ...), not both")
