@@ -19,6 +19,7 @@ from __future__ import annotations
 import argparse
 import contextlib
 import resource
+import shutil
 import time
 
 import numpy as np
@@ -162,6 +163,10 @@ def main(argv=None) -> None:
     args = ap.parse_args(argv)
     import tempfile
 
+    from .memory import keep_freed_memory
+
+    keep_freed_memory()      # as `screener screen` and `screener run` do (memory.py)
+
     tmp = tempfile.mkdtemp(prefix="screener-bench-")
     jd0, fr0 = datetime_to_jd(parse_iso("2026-12-02T00:00:00Z"))
     vol = Volume.sphere(5.0)
@@ -193,6 +198,7 @@ def main(argv=None) -> None:
         if cluster is not None:
             client.close()
             cluster.close()
+        shutil.rmtree(tmp, ignore_errors=True)     # the stores it wrote (about 300 MB each at 30,000)
 
 
 def run_fleet(args, prims, eng, cat, jd0, fr0, vol, tmp) -> None:

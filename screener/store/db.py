@@ -18,6 +18,10 @@ SCHEMA_VERSION = 7
 ENV_STORE = "SCREENER_STORE"
 ENV_LOCK_WAIT = "SCREENER_LOCK_WAIT_S"
 DEFAULT_LOCK_WAIT_S = 60.0      # how long a writer waits for another run's commit to finish
+# An encounter's row is about 3 KB (its record as JSON): a 4 KB page, SQLite's default, holds
+# one and leaves a quarter empty; 16 KB pages hold five (measured on 70,548 encounters: 312 ->
+# 253 MB; the whole run is written twice per commit, into the WAL and back)
+PAGE_SIZE_BYTES = 16384
 
 # Each entry migrates from version k to k+1.  Never edit a released step; append a new one.
 MIGRATIONS: list[str] = [
@@ -230,6 +234,8 @@ class Store:
                                         isolation_level=None, check_same_thread=False)
             self.conn.row_factory = sqlite3.Row
             if not readonly:
+                # a new store only (an existing one keeps its page size; see PAGE_SIZE_BYTES)
+                self.conn.execute(f"PRAGMA page_size={PAGE_SIZE_BYTES}")
                 self.conn.execute("PRAGMA journal_mode=WAL")
                 self.conn.execute("PRAGMA synchronous=NORMAL")
             self.conn.execute("PRAGMA foreign_keys=ON")
