@@ -2,8 +2,8 @@
 instant, compiled with numba (one call per task, no Python per interval or per pair).
 
 At each sample instant inside a grid interval every object's position and velocity come from
-the cubic Hermite of its two end states (`ephemeris.hermite_cubic`, compiled here).  A pair is
-kept when
+the cubic Hermite of its two end states (`ephemeris.hermite_cubic`'s arithmetic, as a loop
+into buffers that the whole call reuses).  A pair is kept when
 
 1. its distance at the instant is at most reach + (s_a + s_b) dt/2 (s the speed bounds over the
    interval: each object moves at most s dt/2 within +-dt/2 of the instant), and
@@ -65,11 +65,11 @@ def _bin(pos, rows, per_km, cell_of, counts, starts, order):
     for b in range(nb):
         starts[b] = acc
         acc += counts[b]
+        counts[b] = starts[b]       # from here on: where bin b's next row goes
     starts[nb] = acc
-    fill = starts[:nb].copy()
     for e in range(len(rows)):
-        order[fill[cell_of[e]]] = rows[e]
-        fill[cell_of[e]] += 1
+        order[counts[cell_of[e]]] = rows[e]
+        counts[cell_of[e]] += 1
 
 
 @njit(cache=True, nogil=True)
@@ -92,6 +92,23 @@ def _test(a, b, pos, vel, s, acc, reach_km, half):
 
 
 @njit(cache=True, nogil=True)
+def _near(a, lo, hi, pos, s, reach_km, half, hits, n_hit):
+    """Test (1) of _test for row a against rows lo..hi-1, the rows that pass appended to
+    hits[n_hit:]; returns the new count.  The same comparison as _test's, in a loop that
+    does nothing else (the rows are contiguous; the rare pass goes on to the full test)."""
+    ax, ay, az, sa = pos[a, 0], pos[a, 1], pos[a, 2], s[a]
+    for b in range(lo, hi):
+        rx = pos[b, 0] - ax
+        ry = pos[b, 1] - ay
+        rz = pos[b, 2] - az
+        rad = reach_km + (sa + s[b]) * half
+        if rx * rx + ry * ry + rz * rz <= rad * rad:
+            hits[n_hit] = b
+            n_hit += 1
+    return n_hit
+
+
+@njit(cache=True, nogil=True)
 def _accel_bound(r0, v0h, r1, v1h, h_s):
     """The largest acceleration of one object's cubic Hermite over its interval: the
     interpolant's acceleration is linear in time, so its norm peaks at an end,
@@ -104,6 +121,39 @@ def _accel_bound(r0, v0h, r1, v1h, h_s):
         a0 += (6.0 * d - 4.0 * v0h[c] - 2.0 * v1h[c]) ** 2
         a1 += (-6.0 * d + 2.0 * v0h[c] + 4.0 * v1h[c]) ** 2
     return math.sqrt(max(a0, a1)) / (h_s * h_s)
+
+
+@njit(cache=True, nogil=True)
+def _gather(r, v, idx, k, h_s, r0, v0h, r1, v1h):
+    """The end states of interval k for rows idx, velocities times h, into the given buffers."""
+    for e in range(len(idx)):
+        i = idx[e]
+        for c in range(3):
+            r0[e, c] = r[i, k, c]
+            v0h[e, c] = v[i, k, c] * h_s
+            r1[e, c] = r[i, k + 1, c]
+            v1h[e, c] = v[i, k + 1, c] * h_s
+
+
+@njit(cache=True, nogil=True)
+def _interpolate_into(u, r0, v0h, r1, v1h, h_s, n, pos, vel):
+    """hermite_compiled at one u for the first n rows, written into pos, vel: the same
+    arithmetic in the same order, without the temporary arrays of its array form (about 16
+    arrays of n x 3 per instant)."""
+    u2 = u * u
+    u3 = u2 * u
+    h00 = 2 * u3 - 3 * u2 + 1
+    h10 = u3 - 2 * u2 + u
+    h01 = -2 * u3 + 3 * u2
+    h11 = u3 - u2
+    d00 = 6 * u2 - 6 * u
+    d10 = 3 * u2 - 4 * u + 1
+    d01 = -6 * u2 + 6 * u
+    d11 = 3 * u2 - 2 * u
+    for e in range(n):
+        for c in range(3):
+            pos[e, c] = h00 * r0[e, c] + h10 * v0h[e, c] + h01 * r1[e, c] + h11 * v1h[e, c]
+            vel[e, c] = (d00 * r0[e, c] + d10 * v0h[e, c] + d01 * r1[e, c] + d11 * v1h[e, c]) / h_s
 
 
 # the 13 neighbour offsets of a cell's half-space (each unordered pair of cells once) ...
@@ -163,23 +213,29 @@ def grid_pairs(r, v, usable, h_s, reach_km, substeps, slow_km_s):
     svel = np.empty((n, 3))
     ss = np.empty(n)
     sacc = np.empty(n)
+    r0, v0h, r1, v1h = np.empty((n, 3)), np.empty((n, 3)), np.empty((n, 3)), np.empty((n, 3))
+    pos, vel = np.empty((n, 3)), np.empty((n, 3))
+    acc, s = np.empty(n), np.empty(n)
+    idx_all = np.empty(n, np.int64)
+    hits = np.empty(n, np.int64)        # one row's neighbours within test (1)
     for k in range(m - 1):
-        idx = np.nonzero(usable[:, k] & usable[:, k + 1])[0]
-        q_n = len(idx)
+        q_n = 0
+        for i in range(n):
+            if usable[i, k] and usable[i, k + 1]:
+                idx_all[q_n] = i
+                q_n += 1
         if q_n < 2:
             continue
-        r0, v0, r1, v1 = r[idx, k], v[idx, k], r[idx, k + 1], v[idx, k + 1]
-        v0h, v1h = v0 * h_s, v1 * h_s
-        acc = np.empty(q_n)
+        idx = idx_all[:q_n]
+        _gather(r, v, idx, k, h_s, r0, v0h, r1, v1h)
         for i in range(q_n):
             acc[i] = _accel_bound(r0[i], v0h[i], r1[i], v1h[i], h_s)
-        s = np.empty(q_n)
         for q in range(substeps):
-            pos, vel = hermite_compiled((q + 0.5) / substeps, r0, v0h, r1, v1h, h_s)
+            _interpolate_into((q + 0.5) / substeps, r0, v0h, r1, v1h, h_s, q_n, pos, vel)
             for i in range(q_n):
                 s[i] = math.sqrt(vel[i, 0] ** 2 + vel[i, 1] ** 2 + vel[i, 2] ** 2) + acc[i] * half
-            slow = np.nonzero(s <= slow_km_s)[0]
-            fast = np.nonzero(s > slow_km_s)[0]
+            slow = np.nonzero(s[:q_n] <= slow_km_s)[0]
+            fast = np.nonzero(s[:q_n] > slow_km_s)[0]
             n_slow = len(slow)
             s_slow = s[slow].max() if n_slow else 0.0
             # a hair wider than the largest slow pair's radius, whatever the rounding of 1 / c
@@ -202,13 +258,14 @@ def grid_pairs(r, v, usable, h_s, reach_km, substeps, slow_km_s):
                 a1 = starts[own + 1]
                 n_runs = _neighbour_runs(ax, ay, az, starts, runs)
                 for ea in range(e0, a1):
-                    for eb in range(ea + 1, a1):
+                    n_hit = _near(ea, ea + 1, a1, spos, ss, reach_km, half, hits, 0)
+                    for q2 in range(n_runs):
+                        n_hit = _near(ea, runs[q2, 0], runs[q2, 1], spos, ss, reach_km, half,
+                                      hits, n_hit)
+                    for e in range(n_hit):
+                        eb = hits[e]
                         if _test(ea, eb, spos, svel, ss, sacc, reach_km, half):
                             out, n_out = _push(out, n_out, idx[order[ea]], idx[order[eb]], k)
-                    for q2 in range(n_runs):
-                        for eb in range(runs[q2, 0], runs[q2, 1]):
-                            if _test(ea, eb, spos, svel, ss, sacc, reach_km, half):
-                                out, n_out = _push(out, n_out, idx[order[ea]], idx[order[eb]], k)
             # fast x slow: a block of cells wide enough for the fast one's radius
             for a in fast:
                 ka = int(math.ceil((reach_km + s[a] * dt) / cell_km * (1.0 + 1e-9)))
