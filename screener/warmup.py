@@ -12,7 +12,7 @@ import numpy as np
 
 
 def warm() -> None:
-    from .propagation.kepler_fill import kepler_states
+    from .propagation.kepler_fill import fill_between, kepler_states
     from .propagation.sgp4_batch import screen_states
     from .risk.path_kernels import log_mixture, segment_hits
     from .screening.refine import brackets_from_candidates
@@ -28,6 +28,8 @@ def warm() -> None:
     fleet_candidates(r[0], v[0], usable[0], r, v, usable, np.array([1]), 240.0, 7.0,
                      top_speeds(v[1:]))
     kepler_states(r[0], v[0], np.array([10.0, 20.0]))
+    fill_between(np.repeat(r[:1, :1], 3, axis=1), np.repeat(v[:1, :1], 3, axis=1),
+                 np.array([0.0, 10.0, 20.0]))
     screen_states(r.copy(), v.copy(), np.zeros((2, 2), np.int8))
     one = np.array([0])
     brackets_from_candidates(np.array([0.0, 120.0]), r, v, one, one + 1, one, 7.0, np.arange(2))

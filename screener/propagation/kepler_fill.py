@@ -71,32 +71,48 @@ def kepler_states(r0_km: np.ndarray, v0_km_s: np.ndarray, tau_s: np.ndarray):
 
 
 @njit(cache=True, nogil=True, error_model="numpy")
+def _kepler_one(r0, v0, tau, mu, iterations, tol, r, v):
+    """One two-body state: r, v (3,) written from r0, v0 (3,) after tau seconds."""
+    x, y, z = r0[0], r0[1], r0[2]
+    vx, vy, vz = v0[0], v0[1], v0[2]
+    r0m = math.sqrt(x * x + y * y + z * z)
+    inv_a = 2.0 / r0m - (vx * vx + vy * vy + vz * vz) / mu
+    a = 1.0 / inv_a
+    n = math.sqrt(mu * inv_a ** 3)
+    ec = 1.0 - r0m * inv_a                                   # e cos E0
+    es = (x * vx + y * vy + z * vz) / math.sqrt(mu * a)      # e sin E0
+    dm = n * tau
+    de = dm
+    for _ in range(iterations):
+        s, c = math.sin(de), math.cos(de)
+        step = (de - ec * s + es * (1.0 - c) - dm) / (1.0 - ec * c + es * s)
+        de -= step
+        if abs(step) < tol:
+            break
+    s, c = math.sin(de), math.cos(de)
+    f = 1.0 - a / r0m * (1.0 - c)
+    g = tau + (s - de) / n
+    rm = a * (1.0 - ec * c + es * s)
+    fd = -math.sqrt(mu * a) / (r0m * rm) * s
+    gd = 1.0 - a / rm * (1.0 - c)
+    r[0], r[1], r[2] = f * x + g * vx, f * y + g * vy, f * z + g * vz
+    v[0], v[1], v[2] = fd * x + gd * vx, fd * y + gd * vy, fd * z + gd * vz
+
+
+@njit(cache=True, nogil=True, error_model="numpy")
 def _kepler_rows(r0, v0, tau, mu, iterations, tol, r, v):
     for k in range(r0.shape[0]):
-        x, y, z = r0[k, 0], r0[k, 1], r0[k, 2]
-        vx, vy, vz = v0[k, 0], v0[k, 1], v0[k, 2]
-        r0m = math.sqrt(x * x + y * y + z * z)
-        inv_a = 2.0 / r0m - (vx * vx + vy * vy + vz * vz) / mu
-        a = 1.0 / inv_a
-        n = math.sqrt(mu * inv_a ** 3)
-        ec = 1.0 - r0m * inv_a                                   # e cos E0
-        es = (x * vx + y * vy + z * vz) / math.sqrt(mu * a)      # e sin E0
-        dm = n * tau[k]
-        de = dm
-        for _ in range(iterations):
-            s, c = math.sin(de), math.cos(de)
-            step = (de - ec * s + es * (1.0 - c) - dm) / (1.0 - ec * c + es * s)
-            de -= step
-            if abs(step) < tol:
-                break
-        s, c = math.sin(de), math.cos(de)
-        f = 1.0 - a / r0m * (1.0 - c)
-        g = tau[k] + (s - de) / n
-        rm = a * (1.0 - ec * c + es * s)
-        fd = -math.sqrt(mu * a) / (r0m * rm) * s
-        gd = 1.0 - a / rm * (1.0 - c)
-        r[k, 0], r[k, 1], r[k, 2] = f * x + g * vx, f * y + g * vy, f * z + g * vz
-        v[k, 0], v[k, 1], v[k, 2] = fd * x + gd * vx, fd * y + gd * vy, fd * z + gd * vz
+        _kepler_one(r0[k], v0[k], tau[k], mu, iterations, tol, r[k], v[k])
+
+
+@njit(cache=True, nogil=True, error_model="numpy")
+def _fill_in_place(r, v, t_s, src, mu, iterations, tol):
+    """r, v (n, m, 3): every point j with src[j] != j from the exact point src[j], in place."""
+    for k in range(r.shape[0]):
+        for j in range(r.shape[1]):
+            c = src[j]
+            if c != j:
+                _kepler_one(r[k, c], v[k, c], t_s[j] - t_s[c], mu, iterations, tol, r[k, j], v[k, j])
 
 
 def coarse_indices(m: int, every: int = COARSE_EVERY) -> np.ndarray:
@@ -104,38 +120,40 @@ def coarse_indices(m: int, every: int = COARSE_EVERY) -> np.ndarray:
     return np.unique(np.r_[np.arange(0, m, every), m - 1])
 
 
+def fill_sources(t_s: np.ndarray, every: int = COARSE_EVERY) -> np.ndarray:
+    """For each grid point (times t_s), the exact point (coarse_indices) its state comes from:
+    itself where exact; in the regular body the nearer of the two exact points around it (the
+    earlier one at the midpoint); between the last regular point and the end, the nearer of
+    the two by time (the earlier on a tie)."""
+    m = len(t_s)
+    src = np.arange(m)
+    if m < 3:
+        return src
+    last = ((m - 1) // every) * every          # last regular exact index
+    for q in range(1, every):                  # j = c + q between regular exact c, c + every
+        j = np.arange(q, last - every + q + 1, every)
+        src[j] = j - q if q <= every // 2 else j - q + every
+    tail = np.arange(last + 1, m - 1)
+    src[tail] = np.where(t_s[tail] - t_s[last] <= t_s[m - 1] - t_s[tail], last, m - 1)
+    return src
+
+
 def fill_between(r: np.ndarray, v: np.ndarray, t_s: np.ndarray, every: int = COARSE_EVERY) -> float:
     """Fill r, v (n, m, 3), exact at coarse_indices(m, every), everywhere else from the nearest
-    exact sample, in place.  Returns the largest |tau| used (s).  The body of the grid is
-    regular, so each offset from the nearest exact sample is one strided slice."""
+    exact sample (fill_sources), in place, in one compiled pass.  Returns the largest |tau|
+    used (s)."""
     n, m = r.shape[:2]
     if not n or m < 3:
         return 0.0
-    last = ((m - 1) // every) * every          # last regular exact index
-    tau_max = 0.0
-
-    def put(dst, src, tau):
-        nonlocal tau_max
-        k = r[:, src].shape[1]
-        if not k:
-            return
-        rr, vv = kepler_states(r[:, src].reshape(-1, 3), v[:, src].reshape(-1, 3),
-                               np.tile(tau, n))
-        r[:, dst] = rr.reshape(n, k, 3)
-        v[:, dst] = vv.reshape(n, k, 3)
-        tau_max = max(tau_max, float(np.abs(tau).max()))
-
-    for q in range(1, every):                  # j = c + q between regular exact c, c + every
-        if q <= every // 2:
-            src = slice(0, last - every + 1, every)
-        else:
-            src = slice(every, last + 1, every)
-        dst = slice(q, last - every + q + 1, every)
-        put(dst, src, t_s[dst] - t_s[src])
-    tail = np.arange(last + 1, m - 1)          # between the last regular index and the end
-    if len(tail):
-        near = np.where(t_s[tail] - t_s[last] <= t_s[m - 1] - t_s[tail], last, m - 1)
-        for c in (last, m - 1):
-            sel = tail[near == c]
-            put(sel, np.full(len(sel), c), t_s[sel] - t_s[c])
-    return tau_max
+    t_s = np.ascontiguousarray(t_s, float)
+    src = fill_sources(t_s, every)
+    filled = src != np.arange(m)
+    if not filled.any():
+        return 0.0
+    if r.flags.c_contiguous and v.flags.c_contiguous:
+        _fill_in_place(r, v, t_s, src, MU, KEPLER_ITERATIONS, KEPLER_TOL_RAD)
+    else:       # a non-contiguous view: through contiguous copies
+        rc, vc = np.ascontiguousarray(r), np.ascontiguousarray(v)
+        _fill_in_place(rc, vc, t_s, src, MU, KEPLER_ITERATIONS, KEPLER_TOL_RAD)
+        r[...], v[...] = rc, vc
+    return float(np.abs(t_s[filled] - t_s[src[filled]]).max())
