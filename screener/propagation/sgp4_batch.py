@@ -163,10 +163,18 @@ class Sgp4Batch:
         jd = np.full(n, jd0)
         starts = np.flatnonzero(np.r_[True, rs[1:] != rs[:-1]])
         ends = np.r_[starts[1:], n]
+        # in sorted order, each object's run written in place (no arrays per call: these are
+        # many short calls), then put back in the callers' order once
+        sr, sv, se = empty_states(n)
+        direct = hasattr(self._sats[0], "_sgp4") if self._sats else False
+        su = se.view(np.uint8)
         for a, b in zip(starts.tolist(), ends.tolist()):
-            e, rr, vv = self._sats[rs[a]].sgp4_array(jd[a:b], fr[a:b])
-            sel = order[a:b]
-            r[sel], v[sel], code[sel] = rr, vv, e
+            sat = self._sats[rs[a]]
+            if direct:
+                sat._sgp4(jd[a:b], fr[a:b], su[a:b], sr[a:b], sv[a:b])
+            else:
+                se[a:b], sr[a:b], sv[a:b] = sat.sgp4_array(jd[a:b], fr[a:b])
+        r[order], v[order], code[order] = sr, sv, se
         screen_states(r, v, code, gates)
         return r, v, code
 
