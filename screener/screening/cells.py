@@ -140,16 +140,11 @@ def _interpolate_into(u, r0, v0h, r1, v1h, h_s, n, pos, vel):
     """hermite_compiled at one u for the first n rows, written into pos, vel: the same
     arithmetic in the same order, without the temporary arrays of its array form (about 16
     arrays of n x 3 per instant)."""
-    u2 = u * u
-    u3 = u2 * u
-    h00 = 2 * u3 - 3 * u2 + 1
-    h10 = u3 - 2 * u2 + u
-    h01 = -2 * u3 + 3 * u2
-    h11 = u3 - u2
-    d00 = 6 * u2 - 6 * u
-    d10 = 3 * u2 - 4 * u + 1
-    d01 = -6 * u2 + 6 * u
-    d11 = 3 * u2 - 2 * u
+    # the basis weights and their derivatives, hermite_cubic's own, from unit end values
+    h00, d00 = hermite_compiled(u, 1.0, 0.0, 0.0, 0.0, 1.0)
+    h10, d10 = hermite_compiled(u, 0.0, 1.0, 0.0, 0.0, 1.0)
+    h01, d01 = hermite_compiled(u, 0.0, 0.0, 1.0, 0.0, 1.0)
+    h11, d11 = hermite_compiled(u, 0.0, 0.0, 0.0, 1.0, 1.0)
     for e in range(n):
         for c in range(3):
             pos[e, c] = h00 * r0[e, c] + h10 * v0h[e, c] + h01 * r1[e, c] + h11 * v1h[e, c]
