@@ -60,11 +60,12 @@ def short_cfg(tmp_path_factory):
     return write_config(d / "c.toml", days=2.0, workers=2)
 
 
-def _start_run(cfg, store, preexec=None):
+def _start_run(cfg, store, preexec=None, hold=None):
+    env = dict(os.environ, SCREENER_TEST_HOLD=hold) if hold else None
     return subprocess.Popen([sys.executable, "-m", "screener.cli.main", "run", "--config", cfg,
                              "--store", str(store)], stdout=subprocess.PIPE,
                             stderr=subprocess.PIPE, text=True, preexec_fn=preexec,
-                            start_new_session=True)
+                            start_new_session=True, env=env)
 
 
 def _wait_line(proc, needle, timeout_s=300):
@@ -97,10 +98,12 @@ def test_interrupt_with_two_workers(short_cfg, tmp_path, sig, code, ignored):
     shell), Ctrl-C must still interrupt."""
     store = tmp_path / "s.sqlite"
     pre = (lambda: signal.signal(signal.SIGINT, signal.SIG_IGN)) if ignored else None
-    proc = _start_run(short_cfg, store, pre)
-    _wait_line(proc, "screening: started")
-    time.sleep(1.0)                       # let the worker processes start
+    # held after the first task (SCREENER_TEST_HOLD): the workers are up and the run is
+    # mid-screening however fast this machine is
+    proc = _start_run(short_cfg, store, pre, hold="screening-task-done")
+    _wait_line(proc, "screener-hold:screening-task-done")
     workers = process_tree(proc.pid)
+    assert workers, "no worker processes to watch"
     proc.send_signal(sig)
     rc = proc.wait(timeout=120)
     err = proc.stderr.read()

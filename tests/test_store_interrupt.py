@@ -62,7 +62,7 @@ def _wait_for(proc, needle, timeout_s=300):
     ("after-events", signal.SIGTERM),
     ("before-commit", signal.SIGINT),
     ("before-commit", signal.SIGKILL),
-    (None, signal.SIGKILL),            # during the screening itself
+    ("screening-task-done", signal.SIGKILL),   # during the screening itself
 ])
 def test_interrupted_run_leaves_the_store_consistent(base, tmp_path, hold, sig):
     cfg, src = base
@@ -70,9 +70,9 @@ def test_interrupted_run_leaves_the_store_consistent(base, tmp_path, hold, sig):
     _copy_store(src, store)
     before = store_counts(store)
     proc = _start(cfg, store, hold)
-    _wait_for(proc, f"screener-hold:{hold}" if hold else "screening: started")
-    if hold and hold != "before-begin":
-        # a concurrent reader during the open write transaction sees the old state
+    _wait_for(proc, f"screener-hold:{hold}")
+    if hold != "before-begin":
+        # a concurrent reader (during the open write transaction) sees the old state
         assert store_counts(store) == before
     proc.send_signal(sig)
     rc = proc.wait(timeout=120)

@@ -22,6 +22,7 @@ from ..risk.attach import attach_risk
 from ..risk.covariance import CovarianceSources
 from ..screening import ScreeningRequest, Volume, screen
 from ..store.db import describe_sqlite_error
+from ..store.runs import hold_for_tests
 from ..timeutil import datetime_to_jd, iso_z, parse_start
 from ..display import plural
 from .identity import describe
@@ -212,7 +213,13 @@ def execute(cfg: Config, store=None, progress: Progress | None = None, cancel=No
     now = now or dt.datetime.now(dt.timezone.utc)
     started = iso_z(dt.datetime.now(dt.timezone.utc), 3)
     pool = None
-    report = progress or (lambda stage, done, total: None)
+    shown = progress or (lambda stage, done, total: None)
+
+    def report(stage: str, done: int, total: int) -> None:
+        shown(stage, done, total)
+        if stage == "screening" and done == 1:
+            hold_for_tests("screening-task-done")     # tests only: workers up, mid-run
+
     log, log_path = (None, None)
     if store is not None:
         log, log_path = open_log(store.folder, dt.datetime.now(dt.timezone.utc).strftime("%Y%m%dT%H%M%S_%fZ"))

@@ -22,9 +22,9 @@ from .events import RunSignatures, change_of, event_trend, inputs_signature, mat
 HOLD_ENV = "SCREENER_TEST_HOLD"   # tests only: pause at a named point inside the transaction
 
 
-def _hold(point: str) -> None:
-    """Lets the interruption tests stop a child at a known point of the write; a no-op unless
-    SCREENER_TEST_HOLD names the point."""
+def hold_for_tests(point: str) -> None:
+    """Lets the interruption tests stop a child at a known point (of the write, or after the
+    first screening task, pipeline.run); a no-op unless SCREENER_TEST_HOLD names the point."""
     if os.environ.get(HOLD_ENV) == point:
         print(f"screener-hold:{point}", file=sys.stderr, flush=True)
         time.sleep(120)
@@ -68,7 +68,7 @@ def commit_run(store: Store, *, name: str, config_snapshot: dict, inputs_files: 
     req = result.request
     conn = store.conn
     w0 = unix_s(req.jd0, req.fr0)
-    _hold("before-begin")
+    hold_for_tests("before-begin")
     conn.execute("BEGIN IMMEDIATE")
     try:
         run_id = conn.execute(
@@ -84,7 +84,7 @@ def commit_run(store: Store, *, name: str, config_snapshot: dict, inputs_files: 
              json.dumps({"act_pc": thresholds.act_pc, "watch_pc": thresholds.watch_pc}),
              len(req.primaries) + len(req.primary_oems), len(req.catalog), len(result.encounters),
              log_path)).lastrowid
-        _hold("after-run-row")
+        hold_for_tests("after-run-row")
         conn.executemany("INSERT OR REPLACE INTO elsets VALUES (?,?,?,?,?,?,?,?,?,?)", _elset_rows(run_id, req, result.encounters))
         encs = result.encounters
         tcas = [unix_s(*e.tca_jd) for e in encs]
@@ -109,14 +109,14 @@ def commit_run(store: Store, *, name: str, config_snapshot: dict, inputs_files: 
                          e.relative_speed_km_s, rk["pc"], rk.get("log10_pc"), rk["pc_max"],
                          rk["attention"], rank, rk["covariance_source"], int(rk["dilution_region"]),
                          tr, ch, _record_json(data), rk.get("flags", "")))
-        _hold("after-events")
+        hold_for_tests("after-events")
         conn.executemany(
             "INSERT INTO encounters (run_id, event_id, primary_id, primary_name, secondary_id,"
             " secondary_name, tca_utc, tca_unix_s, miss_km, radial_km, in_track_km, cross_track_km,"
             " relative_speed_km_s, pc, log10_pc, pc_max, attention, attention_rank,"
             " covariance_source, dilution, trend, change, data_json, flags)"
             " VALUES (?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?)", rows)
-        _hold("before-commit")
+        hold_for_tests("before-commit")
         diff = run_diff(conn, run_id, name, w0)
         conn.execute("COMMIT")
     except BaseException:
