@@ -15,20 +15,18 @@ import math
 import numpy as np
 from numba import njit
 
-from .cells import hermite_compiled
+from .cells import hermite_weights
 
 
 @njit(cache=True, nogil=True)
 def _basis(subdivisions, h_s):
     """basis[s, q] = (position weight, velocity weight) of term q (r0, v0 h, r1, v1 h) at
-    u = s / subdivisions: the Hermite formula applied to unit terms, once per call."""
+    u = s / subdivisions (cells.hermite_weights, the velocity weight over h), once per call."""
     basis = np.empty((subdivisions + 1, 4, 2))
     for s in range(subdivisions + 1):
-        u = s / subdivisions
+        w, d = hermite_weights(s / subdivisions)
         for q in range(4):
-            unit = np.zeros(4)
-            unit[q] = 1.0
-            basis[s, q, 0], basis[s, q, 1] = hermite_compiled(u, unit[0], unit[1], unit[2], unit[3], h_s)
+            basis[s, q, 0], basis[s, q, 1] = w[q], d[q] / h_s
     return basis
 
 

@@ -32,14 +32,28 @@ from ..propagation.ephemeris import hermite_cubic
 WRAP = 64     # cells per axis of the wrapped grid: 64^3 bins (2 MB of counts)
 
 
-hermite_compiled = njit(cache=True, nogil=True)(hermite_cubic)   # also used by bracket_scan
+hermite_compiled = njit(cache=True, nogil=True)(hermite_cubic)
+
+
+@njit(cache=True, nogil=True)
+def hermite_weights(u):
+    """hermite_cubic's weights at u of its four end terms (r0, v0 h, r1, v1 h): (position
+    weights, velocity weights times h), from the compiled formula on unit end values; shared
+    by the cell search and the bracket search."""
+    w = np.empty(4)
+    d = np.empty(4)
+    for q in range(4):
+        unit = np.zeros(4)
+        unit[q] = 1.0
+        w[q], d[q] = hermite_compiled(u, unit[0], unit[1], unit[2], unit[3], 1.0)
+    return w, d
 
 
 @njit(cache=True, nogil=True)
 def _cell(x, per_km):
-    """The (unwrapped) cell index of one coordinate (per_km: cells per km), offset by half a wrap period so that the
-    wrap falls far from the origin (outside LEO for cells over 250 km): there, the three cells
-    along z of a column are neighbouring bins."""
+    """The (unwrapped) cell index of one coordinate (per_km: cells per km), offset by half a
+    wrap period so that the wrap falls far from the origin (outside LEO for cells over 250 km):
+    there, the three cells along z of a column are neighbouring bins."""
     return int(math.floor(x * per_km)) + WRAP // 2
 
 
@@ -140,11 +154,9 @@ def _interpolate_into(u, r0, v0h, r1, v1h, h_s, n, pos, vel):
     """hermite_compiled at one u for the first n rows, written into pos, vel: the same
     arithmetic in the same order, without the temporary arrays of its array form (about 16
     arrays of n x 3 per instant)."""
-    # the basis weights and their derivatives, hermite_cubic's own, from unit end values
-    h00, d00 = hermite_compiled(u, 1.0, 0.0, 0.0, 0.0, 1.0)
-    h10, d10 = hermite_compiled(u, 0.0, 1.0, 0.0, 0.0, 1.0)
-    h01, d01 = hermite_compiled(u, 0.0, 0.0, 1.0, 0.0, 1.0)
-    h11, d11 = hermite_compiled(u, 0.0, 0.0, 0.0, 1.0, 1.0)
+    w, d = hermite_weights(u)
+    h00, h10, h01, h11 = w[0], w[1], w[2], w[3]
+    d00, d10, d01, d11 = d[0], d[1], d[2], d[3]
     for e in range(n):
         for c in range(3):
             pos[e, c] = h00 * r0[e, c] + h10 * v0h[e, c] + h01 * r1[e, c] + h11 * v1h[e, c]

@@ -19,7 +19,7 @@ from ..elements.tle import catalog_id_to_int
 from .db import Store
 from .events import RunSignatures, change_of, event_trend, inputs_signature, match_events, run_diff
 
-HOLD_ENV = "SCREENER_TEST_HOLD"   # tests only: pause at a named point inside the transaction
+HOLD_ENV = "SCREENER_TEST_HOLD"   # tests only: pause a run at a named point (hold_for_tests)
 
 
 def hold_for_tests(point: str) -> None:
