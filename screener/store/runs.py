@@ -90,32 +90,37 @@ def commit_run(store: Store, *, name: str, config_snapshot: dict, inputs_files: 
         tcas = [unix_s(*e.tca_jd) for e in encs]
         matches = match_events(conn, run_id, [(e.primary, e.secondary, t) for e, t in zip(encs, tcas)],
                                tca_tolerance_s)
-        rows = []
         signature = inputs_signature(json.dumps(inputs_files), json.dumps(config_snapshot, default=str))
         signatures = RunSignatures(conn)
+        staged = []
         for e, t, m in zip(encs, tcas, matches):
-            rk = e.risk
-            rank = LEVEL_RANK[rk["attention"]]
-            tr = event_trend(m.history, e.miss_km, signature, m.prev, signatures)
-            ch = change_of(m.prev, rank)
-            data = e.to_json()
-            data.update({"trend": tr, "change": ch, "event_id": m.event_id})
-            if m.prev is not None:
-                data["previous"] = {"run_id": m.prev["run_id"], "miss_km": m.prev["miss_km"],
-                                    "pc": m.prev["pc"], "tca": m.prev["tca_utc"],
-                                    "attention": m.prev["attention"]}
-            rows.append((run_id, m.event_id, e.primary, e.primary_name, e.secondary, e.secondary_name,
-                         data["tca"], t, e.miss_km, e.radial_km, e.in_track_km, e.cross_track_km,
-                         e.relative_speed_km_s, rk["pc"], rk.get("log10_pc"), rk["pc_max"],
-                         rk["attention"], rank, rk["covariance_source"], int(rk["dilution_region"]),
-                         tr, ch, _record_json(data), rk.get("flags", "")))
+            rank = LEVEL_RANK[e.risk["attention"]]
+            staged.append((e, t, m, rank, event_trend(m.history, e.miss_km, signature, m.prev, signatures),
+                           change_of(m.prev, rank)))
+
+        def rows():
+            # one record at a time, written as it is made: holding all of them first (about
+            # 200 MB of text at 70,000 encounters) cost more in fresh memory than the writing
+            for e, t, m, rank, tr, ch in staged:
+                rk = e.risk
+                data = e.to_json()
+                data.update({"trend": tr, "change": ch, "event_id": m.event_id})
+                if m.prev is not None:
+                    data["previous"] = {"run_id": m.prev["run_id"], "miss_km": m.prev["miss_km"],
+                                        "pc": m.prev["pc"], "tca": m.prev["tca_utc"],
+                                        "attention": m.prev["attention"]}
+                yield (run_id, m.event_id, e.primary, e.primary_name, e.secondary, e.secondary_name,
+                       data["tca"], t, e.miss_km, e.radial_km, e.in_track_km, e.cross_track_km,
+                       e.relative_speed_km_s, rk["pc"], rk.get("log10_pc"), rk["pc_max"],
+                       rk["attention"], rank, rk["covariance_source"], int(rk["dilution_region"]),
+                       tr, ch, _record_json(data), rk.get("flags", ""))
         hold_for_tests("after-events")
         conn.executemany(
             "INSERT INTO encounters (run_id, event_id, primary_id, primary_name, secondary_id,"
             " secondary_name, tca_utc, tca_unix_s, miss_km, radial_km, in_track_km, cross_track_km,"
             " relative_speed_km_s, pc, log10_pc, pc_max, attention, attention_rank,"
             " covariance_source, dilution, trend, change, data_json, flags)"
-            " VALUES (?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?)", rows)
+            " VALUES (?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?)", rows())
         hold_for_tests("before-commit")
         diff = run_diff(conn, run_id, name, w0)
         conn.execute("COMMIT")
