@@ -1,7 +1,8 @@
 """Compile the numba functions now (or load them from numba's cache): the two coarse sieves,
-the bracket search, the state gates, the two-body fill and the along-path Monte Carlo's kernels.  `make` runs
-this after installing and the test session before its first test, so that no screening spends
-the compile time (about 10 s) on its first call.
+the bracket search, the state gates, the two-body fill, the 2-D Pc quadrature's fixed rule
+and the along-path Monte Carlo's kernels.  `make` runs this after installing and the test
+session before its first test, so that no screening spends the compile time (about 10 s) on
+its first call.
 
     python -m screener.warmup
 """
@@ -15,6 +16,7 @@ def warm() -> None:
     from .propagation.kepler_fill import fill_between, kepler_states
     from .propagation.sgp4_batch import screen_states
     from .risk.path_kernels import log_mixture, segment_hits
+    from .risk.pc import pc_quadrature_many
     from .screening.refine import brackets_from_candidates
     from .screening.sieve import all_pairs_candidates, fleet_candidates, top_speeds
 
@@ -36,6 +38,7 @@ def warm() -> None:
     seg = r[1]
     segment_hits(seg, seg, seg, np.ones(2), 0.01)
     log_mixture(seg, seg, seg, np.ones(2), 0.01, np.zeros(2))
+    pc_quadrature_many(np.ones(2), np.ones(2), np.ones(2), np.ones(2), np.full(2, 0.1))
 
 
 if __name__ == "__main__":
