@@ -126,14 +126,10 @@ def test_unresolvable_pass_is_ranked_by_its_upper_bound():
         relative_path_km = path.tolist()
         profile_half_s = 900.0
 
-    class _Est:
-        def __init__(self, c):
-            self.cov_rtn_km2 = c
-
     half = np.diag([(sx / 1e3) ** 2 / 2, (sy / 1e3) ** 2 / 2, 0.5 ** 2 / 2])
     # the RTN frames here are (nearly) the inertial axes: the two halves sum to cov
     out = {"pc": 0.0, "pc_method": "x", "pc_max": 0.0, "dilution_region": False}
-    _path_pc(_E, (_Est(half), _Est(half)), out, hbr, Thresholds())
+    _path_pc(_E, half, half, out, hbr, Thresholds())
     assert out["pc_mc_resolved"] is False
     assert out["attention"] == ACT and "upper bound" in out["attention_reason"]
 

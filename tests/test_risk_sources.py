@@ -261,3 +261,31 @@ def test_risk_on_worker_processes_equals_risk_in_process(monkeypatch):
     assert any("pc_2d" in x.risk for x in a)   # and at least one slow pass (its path sent too)
     for x, y in zip(a, b):
         assert x.risk == y.risk, key(x)
+
+
+def test_long_fast_pass_completed_with_its_path_after_the_workers():
+    """Only slow passes send their relative path to the risk workers (pack_for_risk). A pass
+    that is not slow but stays long in a very large covariance needs its path too: its
+    record comes back marked, and the parent completes the Pc along the path. Every record
+    must equal the one made in this process with every path at hand (the split is only a
+    schedule). The covariance is an invented test input, far beyond any element set's."""
+    import copy
+
+    from screener.config import load_config
+    from screener.pipeline import execute
+    from screener.pipeline.run import risk_in_workers
+    from screener.risk.attach import PATH_PENDING, SLOW_PASS_KM_S, attach_risk
+
+    cfg = load_config(os.path.join(DEMO, "demo.toml"))
+    encs = execute(dataclasses.replace(cfg, window_days=1.0, workers=1)).result.encounters
+    huge = {"LEO": SigmaGrowth((300.0, 900.0, 300.0))}      # km: 5 sigma spans ~4,500 km
+    here = copy.deepcopy(encs)
+    attach_risk(here, CovarianceSources(configured=huge))
+    fast_long = [e for e in here if "pc_2d" in e.risk and e.relative_speed_km_s >= SLOW_PASS_KM_S]
+    assert fast_long, "no fast pass needed its path"
+    there = copy.deepcopy(encs)
+    radii = {oid: 5.0 for e in there for oid in (e.primary, e.secondary)}
+    risk_in_workers(there, [], huge, None, radii, Thresholds(), workers=2)
+    for x, y in zip(here, there):
+        assert PATH_PENDING not in y.risk
+        assert x.risk == y.risk, (x.primary, x.secondary, x.tca_s)

@@ -43,10 +43,13 @@ def attach_risk(encounters: Sequence[Encounter], sources: CovarianceSources,
                 radius_m: Callable[[str], float] | None = None,
                 thresholds: Thresholds = Thresholds(),
                 aliases: Mapping[str, Sequence[str]] | None = None,
-                progress: Callable[[str, int, int], None] | None = None) -> None:
+                progress: Callable[[str, int, int], None] | None = None,
+                path_not_sent: Sequence[bool] | None = None) -> None:
     """Fill e.risk for every encounter.  radius_m(object_id) gives each object's
     circumscribing-sphere radius (default DEFAULT_OBJECT_RADIUS_M); progress("risk", done,
-    total) is called every few encounters."""
+    total) is called every few encounters.  path_not_sent[n]: encounter n has a relative
+    path that was left out (pack_for_risk); if its Pc needs one, its record is marked
+    PATH_PENDING instead."""
     radius_m = radius_m or (lambda _id: DEFAULT_OBJECT_RADIUS_M)
     aliases = aliases or {}
     total = len(encounters)
@@ -91,7 +94,9 @@ def attach_risk(encounters: Sequence[Encounter], sources: CovarianceSources,
             out["pc_note"] = ("2-D short-encounter Pc doubtful: slow pass or long time in the "
                               "combined uncertainty region")
             if len(e.relative_path_km) >= 2:
-                _path_pc(e, est, out, hbr_m, thresholds)
+                _path_pc(e, est[0].cov_rtn_km2, est[1].cov_rtn_km2, out, hbr_m, thresholds)
+            elif path_not_sent is not None and path_not_sent[n]:
+                out[PATH_PENDING] = True      # risk_in_workers completes it with the path
         out["flags"] = encounter_flags(assumed_any, bool(out["dilution_region"]), short_ok)
         e.risk = out
 
@@ -104,8 +109,22 @@ def risk_of_chunk(packed: dict, oems, configured, history, radii: dict,
     risk dicts go back."""
     encounters = unpack_for_risk(packed)
     sources = CovarianceSources(oems=oems, configured=configured, history=history)
-    attach_risk(encounters, sources, radius_m=lambda oid: radii[oid], thresholds=thresholds)
+    attach_risk(encounters, sources, radius_m=lambda oid: radii[oid], thresholds=thresholds,
+                path_not_sent=packed["path_not_sent"].tolist())
     return [e.risk for e in encounters]
+
+
+# Set in a risk record made without the relative path that its encounter has and needs (a
+# long pass that is not slow: pack_for_risk sends the paths of slow passes only)
+PATH_PENDING = "_path_pending"
+
+
+def complete_path_pc(e: Encounter, thresholds: Thresholds) -> None:
+    """The along-path Pc of an encounter whose risk record was made without its path."""
+    out = e.risk
+    if out.pop(PATH_PENDING, False) and len(e.relative_path_km) >= 2:
+        _path_pc(e, np.array(out["primary_cov_rtn_km2"]), np.array(out["secondary_cov_rtn_km2"]),
+                 out, out["hbr_m"], thresholds)
 
 
 # The numbers attach_risk reads of an encounter, in pack_for_risk's column order
@@ -115,18 +134,24 @@ _PACKED_VECTORS = ("primary_r_km", "primary_v_km_s", "secondary_r_km", "secondar
 
 
 def pack_for_risk(encounters: Sequence[Encounter]) -> dict:
-    """What attach_risk reads of each encounter (ids, TCA, states, ages, speed, relative
-    path), as a few arrays: a worker's chunk pickles and loads in about a tenth of the time
-    its Encounter objects take (0.2 against 2.4 s for 70,548 encounters, measured)."""
+    """What attach_risk reads of each encounter (ids, TCA, states, ages, speed; the relative
+    path of slow passes), as a few arrays: a worker's chunk pickles and loads in about a
+    tenth of the time its Encounter objects take (0.2 against 2.4 s for 70,548 encounters,
+    measured).  Only slow passes (under SLOW_PASS_KM_S) send their path: every encounter has
+    one (61 points), 103 MB at 70,548 encounters, whose copy alone took 1.2 s, and a faster
+    pass needs it only when its covariance is so large that it stays in the combined region
+    for more than SHORT_ENCOUNTER_MAX_S; such a record comes back marked PATH_PENDING."""
     num = np.array([[getattr(e, f) for f in _PACKED_SCALARS]
                     + [x for f in _PACKED_VECTORS for x in getattr(e, f)] for e in encounters],
                    float).reshape(len(encounters), len(_PACKED_SCALARS) + 12)
-    lens = np.array([len(e.relative_path_km) for e in encounters], int)
+    has_path = np.array([len(e.relative_path_km) >= 2 for e in encounters], bool)
+    slow = [e.relative_speed_km_s < SLOW_PASS_KM_S for e in encounters]
+    lens = np.array([len(e.relative_path_km) if k else 0 for e, k in zip(encounters, slow)], int)
     paths = (np.concatenate([np.asarray(e.relative_path_km, float).reshape(-1, 3)
-                             for e in encounters if len(e.relative_path_km)])
+                             for e, k in zip(encounters, slow) if k and len(e.relative_path_km)])
              if lens.any() else np.empty((0, 3)))
     return {"ids": [(e.primary, e.secondary) for e in encounters], "num": num,
-            "path_lens": lens, "paths": paths}
+            "path_lens": lens, "paths": paths, "path_not_sent": has_path & (lens == 0)}
 
 
 def unpack_for_risk(packed: dict) -> list[Encounter]:
@@ -147,14 +172,15 @@ def unpack_for_risk(packed: dict) -> list[Encounter]:
     return out
 
 
-def _path_pc(e: Encounter, est, out: dict, hbr_m: float, thresholds: Thresholds) -> None:
+def _path_pc(e: Encounter, cov1_rtn_km2, cov2_rtn_km2, out: dict, hbr_m: float,
+             thresholds: Thresholds) -> None:
     """Slow/long encounter: Pc by Monte Carlo along the relative path replaces the 2-D Pc
-    (which is kept as pc_2d)."""
+    (which is kept as pc_2d).  The covariances are each object's 3x3 RTN position block."""
     from .encounter_plane import ric_to_inertial_cov
     from .pc_path import PATH_MC_SAMPLES, pc_path_resolved
 
-    c = (ric_to_inertial_cov(est[0].cov_rtn_km2, e.primary_r_km, e.primary_v_km_s)
-         + ric_to_inertial_cov(est[1].cov_rtn_km2, e.secondary_r_km, e.secondary_v_km_s))
+    c = (ric_to_inertial_cov(cov1_rtn_km2, e.primary_r_km, e.primary_v_km_s)
+         + ric_to_inertial_cov(cov2_rtn_km2, e.secondary_r_km, e.secondary_v_km_s))
     mc, resolved = pc_path_resolved(np.array(e.relative_path_km), c, hbr_m / 1000.0,
                                     (thresholds.watch_pc, thresholds.act_pc))
     out["pc_2d"], out["pc_2d_method"] = out["pc"], out["pc_method"]
