@@ -87,9 +87,11 @@ def scenario(n, jd0, fr0, n_primaries=10, seed=3, dense=True):
     return prims, eng, eng + [rest[k] for k in order]
 
 
-def with_risk_and_store(res, folder: str, workers: int = 2, executor=None) -> dict:
+def with_risk_and_store(res, folder: str, workers: int = 2, executor=None, release=None) -> dict:
     """Attach risk (as `screener screen` does: on the workers when there are many encounters)
-    and commit the run to a real store; wall seconds of each."""
+    and commit the run to a real store; wall seconds of each.  `release()`, if given, is
+    called between the two: `execute` shuts its pool down before the store (measured with the
+    idle workers kept alive, the 70,548-encounter commit took 5.0 s against 4.1 s)."""
     import datetime as dt
     import os
 
@@ -108,6 +110,8 @@ def with_risk_and_store(res, folder: str, workers: int = 2, executor=None) -> di
         risk_in_workers(encs, [], {}, None, radii, Thresholds(), workers, executor)
     else:
         attach_risk(encs, CovarianceSources(oems=[], configured={}, history=None))
+    if release is not None:
+        release()
     risk_s = time.perf_counter() - t0
     path = os.path.join(folder, f"bench-{len(res.encounters)}-{time.time_ns()}.sqlite")
     t0 = time.perf_counter()
@@ -132,6 +136,11 @@ def _pool(args):
         yield pool
     finally:
         pool.shutdown(wait=True, cancel_futures=True)
+
+
+def _release(args, ex):
+    """What shuts the benchmark's own pool down after the risk stage (None for Dask's)."""
+    return ex.shutdown if ex is not None and ex is not args.executor else None
 
 
 def print_stages(res, extra: dict, wall_s: float) -> None:
@@ -208,7 +217,7 @@ def run_fleet(args, prims, eng, cat, jd0, fr0, vol, tmp) -> None:
         res = screen(ScreeningRequest(catalog=cat, primaries=prims, jd0=jd0, fr0=fr0,
                                       duration_s=args.fleet_days * 86400, volume=vol,
                                       workers=args.workers), executor=ex)
-        extra = with_risk_and_store(res, tmp, args.workers, ex)
+        extra = with_risk_and_store(res, tmp, args.workers, ex, _release(args, ex))
     wall = time.perf_counter() - t0
     cp1 = catalog_pass_s(cat, jd0, fr0, 1.0)
     cp = cp1 * args.fleet_days  # propagation cost is linear in samples: 1 day measured, scaled
@@ -282,7 +291,7 @@ def run_all_vs_all(args, sizes, prims, eng, cat, jd0, fr0, vol, tmp) -> None:
         with _pool(args) as ex:
             res = screen(ScreeningRequest(catalog=sub, jd0=jd0, fr0=fr0, duration_s=86400.0,
                                           volume=vol, workers=args.workers), executor=ex)
-            extra = with_risk_and_store(res, tmp, args.workers, ex)
+            extra = with_risk_and_store(res, tmp, args.workers, ex, _release(args, ex))
         wall = time.perf_counter() - t0
         cpn = catalog_pass_s(sub, jd0, fr0, 1.0)
         print(f"wall {wall:.1f} s  peak RSS {peak_rss_mb():.0f} MB  encounters {len(res.encounters)}  "
