@@ -145,7 +145,7 @@ def risk_in_workers(encs, oems, configured, history, radii, thresholds, workers:
     the element-set histories and radii of its own objects."""
     from concurrent.futures import as_completed
 
-    from ..risk.attach import PATH_PENDING, complete_path_pc, pack_for_risk, risk_of_chunk
+    from ..risk.attach import complete_path_pc, pack_for_risk, risk_of_chunk
     from ..workers import result_of
 
     n_chunks = workers * RISK_CHUNKS_PER_WORKER
@@ -168,8 +168,7 @@ def risk_in_workers(encs, oems, configured, history, radii, thresholds, workers:
             chunk = futures[fut]
             for e, risk in zip(chunk, result_of(fut, "a risk chunk")):
                 e.risk = risk
-                if PATH_PENDING in risk:        # a long fast pass: its path was not sent
-                    complete_path_pc(e, thresholds)
+                complete_path_pc(e, thresholds)     # a long fast pass: its path was not sent
             done += len(chunk)
             if progress:
                 progress("risk", done, len(encs))

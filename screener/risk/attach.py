@@ -120,7 +120,8 @@ PATH_PENDING = "_path_pending"
 
 
 def complete_path_pc(e: Encounter, thresholds: Thresholds) -> None:
-    """The along-path Pc of an encounter whose risk record was made without its path."""
+    """The along-path Pc of an encounter whose risk record was made without its path (marked
+    PATH_PENDING); any other record is left as it is."""
     out = e.risk
     if out.pop(PATH_PENDING, False) and len(e.relative_path_km) >= 2:
         _path_pc(e, np.array(out["primary_cov_rtn_km2"]), np.array(out["secondary_cov_rtn_km2"]),
@@ -145,10 +146,10 @@ def pack_for_risk(encounters: Sequence[Encounter]) -> dict:
                     + [x for f in _PACKED_VECTORS for x in getattr(e, f)] for e in encounters],
                    float).reshape(len(encounters), len(_PACKED_SCALARS) + 12)
     has_path = np.array([len(e.relative_path_km) >= 2 for e in encounters], bool)
-    slow = [e.relative_speed_km_s < SLOW_PASS_KM_S for e in encounters]
-    lens = np.array([len(e.relative_path_km) if k else 0 for e, k in zip(encounters, slow)], int)
+    lens = np.array([len(e.relative_path_km) if e.relative_speed_km_s < SLOW_PASS_KM_S else 0
+                     for e in encounters], int)
     paths = (np.concatenate([np.asarray(e.relative_path_km, float).reshape(-1, 3)
-                             for e, k in zip(encounters, slow) if k and len(e.relative_path_km)])
+                             for e, n in zip(encounters, lens.tolist()) if n])
              if lens.any() else np.empty((0, 3)))
     return {"ids": [(e.primary, e.secondary) for e in encounters], "num": num,
             "path_lens": lens, "paths": paths, "path_not_sent": has_path & (lens == 0)}

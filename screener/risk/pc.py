@@ -191,27 +191,15 @@ def _max_over_rows(rows, xm, ym, sx, sy, R, d, best_pc, best_k) -> None:
         best_k[r] = np.where(use_mid, np.exp(mid), ks[rr, g])
 
 
-def _ndtr(z: float) -> float:
-    """The standard normal CDF of one number, as scipy.special.ndtr computes it (erfc of
-    -z/sqrt(2)), without a ufunc call per value."""
-    return 0.5 * math.erfc(-z / math.sqrt(2.0))
-
-
 def pc_quadrature_adaptive(xm: float, ym: float, sx: float, sy: float, R: float) -> float:
     """The quadrature with scipy's adaptive rule (relative tolerance 1e-12)."""
+    from .plane_kernels import node_value
 
     xm, ym, sx, sy, R = float(xm), float(ym), float(sx), float(sy), float(R)
-    norm = sx * math.sqrt(2 * math.pi)
 
-    def f(theta):       # the integrand of the fixed rule, in scalar arithmetic (quad calls it ~100 times)
-        x = xm + R * math.sin(theta)
-        half = math.sqrt(max(R * R - (x - xm) ** 2, 0.0))
-        a = (ym - half) / sy
-        b = (ym + half) / sy
-        chord = _ndtr(-a) - _ndtr(-b) if a > 0 else _ndtr(b) - _ndtr(a)
-        return math.exp(-0.5 * (x / sx) ** 2) / norm * chord * R * math.cos(theta)
+    def f(theta):       # the fixed rule's integrand, compiled (quad calls it ~100 times)
+        return node_value(xm, ym, sx, sy, R, math.sin(theta), math.cos(theta))
 
-    # split at the Gaussian's peak region for robustness when the disk is far out
     val, _ = integrate.quad(f, -math.pi / 2, math.pi / 2, epsabs=0.0, epsrel=1e-12, limit=200)
     return float(val)
 
