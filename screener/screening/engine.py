@@ -24,6 +24,8 @@ from ..gcpause import gc_paused
 from ..propagation import codes
 from ..propagation.ephemeris import Population
 from ..workers import result_of
+from . import encounter_columns
+from .shared_records import Records
 from .encounter import (SLOW_RELATIVE_SPEED_KM_S, Encounter, add_range_profiles, fill_altitudes,
                         make_encounters)
 from .filters import apogee_perigee_mask, bounds_array, radial_bounds_km
@@ -87,9 +89,9 @@ class ScreeningRequest:
 
 @dataclasses.dataclass
 class Task:
-    primaries: list[ElementSet]
+    primaries: Sequence[ElementSet]     # plan_tasks gives shared_records.Records
     primary_oems: list[Oem]
-    secondaries: list[ElementSet]
+    secondaries: Sequence[ElementSet]
     jd0: float
     fr0: float
     t0_s: float
@@ -128,6 +130,19 @@ class TaskResult:
     encounters: list[Encounter]
     unusable: dict[str, Unusable]
     stats: dict[str, float]
+
+    # pickled with its encounters as columns (encounter_columns): the trip back from a worker
+    # is part of every task's cost
+    def __getstate__(self) -> dict:
+        cols = encounter_columns.pack(self.encounters)
+        return {**self.__dict__, "encounters": self.encounters if cols is None else cols,
+                "packed": cols is not None}
+
+    def __setstate__(self, state: dict) -> None:
+        state = dict(state)
+        if state.pop("packed", False):
+            state["encounters"] = encounter_columns.unpack(state["encounters"])
+        self.__dict__.update(state)
 
 
 @dataclasses.dataclass
@@ -470,12 +485,14 @@ def plan_tasks(req: ScreeningRequest, spans: int | None = None, executor=None) -
     cut = decay_cutoffs(list(req.primaries) + [s for c in chunks for s in c], req.jd0, req.fr0,
                         req.duration_s, executor, 2 * req.workers)
     tasks = []
+    primaries = Records(req.primaries)     # pickled once for all tasks (shared_records)
     for chunk in chunks:
         ids = {r.catalog_id for r in chunk} | {r.catalog_id for r in req.primaries}
         mine = {k: v for k, v in cut.items() if k in ids}
+        secondaries = Records(chunk)
         for a, b in zip(edges[:-1], edges[1:]):
-            tasks.append(Task(list(req.primaries), list(req.primary_oems),
-                              list(chunk), req.jd0, req.fr0, float(a), float(b),
+            tasks.append(Task(primaries, list(req.primary_oems),
+                              secondaries, req.jd0, req.fr0, float(a), float(b),
                               req.duration_s, req.volume, req.step_s, req.all_vs_all,
                               bool(b == edges[-1]), mine))
     return tasks

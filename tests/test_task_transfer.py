@@ -1,0 +1,113 @@
+"""What travels between the parent and its workers arrives unchanged.
+
+A task's encounters go back as columns (screening/encounter_columns.py) and the element sets a
+task carries are pickled once and read once per worker (screening/shared_records.py).  The
+reference here is the object before the trip: a transfer must not change a value, so every
+float is compared bitwise, every field by type and the fields in their order.  The scenario
+(tests/scenarios.py, invented objects) only supplies realistic encounters: head-on, crossing,
+slow co-orbital passes with volume entry and exit times, GTO and GEO.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import pickle
+
+import numpy as np
+import pytest
+
+from screener.screening.encounter import Encounter
+from screener.screening.engine import ScreeningRequest, TaskResult, plan_tasks, run_task
+from screener.screening.shared_records import Records
+from screener.screening.volume import Volume
+from screener.workers import spawn_pool
+from tests.scenarios import WINDOW_S, hard_cases
+
+
+def _bits(x) -> np.ndarray:
+    return np.asarray(x, np.float64).view(np.int64)
+
+
+def _same(a, b) -> bool:
+    if isinstance(a, np.ndarray):
+        return (type(b) is np.ndarray and a.shape == b.shape and a.dtype == b.dtype
+                and np.array_equal(_bits(a), _bits(b)) and b.flags["C_CONTIGUOUS"])
+    if isinstance(a, float):
+        return type(b) is float and _bits(a) == _bits(b)
+    if isinstance(a, tuple):
+        return type(b) is tuple and len(a) == len(b) and all(_same(x, y) for x, y in zip(a, b))
+    return type(a) is type(b) and a == b
+
+
+def assert_identical(before: list[Encounter], after: list[Encounter]) -> None:
+    assert len(before) == len(after)
+    for x, y in zip(before, after):
+        assert type(y) is Encounter
+        assert list(x.__dict__) == list(y.__dict__), "fields in another order"
+        for k, a in x.__dict__.items():
+            assert _same(a, y.__dict__[k]), (k, a, y.__dict__[k])
+
+
+@pytest.fixture(scope="module")
+def task_result():
+    sc = hard_cases()
+    req = ScreeningRequest(catalog=sc["secondaries"], primaries=sc["primaries"], jd0=sc["jd0"],
+                           fr0=sc["fr0"], duration_s=WINDOW_S, volume=Volume.sphere(5.0), workers=1)
+    results = [run_task(t) for t in plan_tasks(req, spans=1)]
+    assert len(results) == 1
+    return results[0]
+
+
+def test_a_task_result_comes_back_bitwise_equal(task_result):
+    encs = task_result.encounters
+    # slow co-orbital passes (m/s) and a head-on one (15 km/s) among them
+    speeds = [e.relative_speed_km_s for e in encs]
+    assert min(speeds) < 0.01 and max(speeds) > 14.0
+    back = pickle.loads(pickle.dumps(task_result, protocol=pickle.HIGHEST_PROTOCOL))
+    assert back.stats == task_result.stats and back.unusable == task_result.unusable
+    assert_identical(encs, back.encounters)
+
+
+def test_uneven_lengths_and_odd_fields(task_result):
+    encs = [dataclasses.replace(e) for e in task_result.encounters[:6]]
+    encs[1].relative_path_km = encs[1].relative_path_km[:40].copy()   # samples SGP4 refused
+    encs[2].range_profile_km = encs[2].range_profile_km[:0].copy()
+    encs[3].risk = {"pc": 1.5e-4, "attention": "watch"}
+    encs[4].entry_s, encs[4].exit_s = 12.5, None
+    encs[5].miss_km = np.float64(encs[5].miss_km)        # comes back as the equal Python float
+    res = TaskResult(encs, {}, {})
+    back = pickle.loads(pickle.dumps(res))
+    assert back.encounters[5].miss_km == encs[5].miss_km
+    encs[5].miss_km = float(encs[5].miss_km)
+    assert_identical(encs, back.encounters)
+    # a field the columns do not keep (a profile as a tuple): the objects travel as they are
+    encs[0].range_profile_km = tuple(encs[0].range_profile_km.tolist())
+    back = pickle.loads(pickle.dumps(TaskResult(encs, {}, {})))
+    assert_identical(encs, back.encounters)
+    assert pickle.loads(pickle.dumps(TaskResult([], {}, {}))).encounters == []
+
+
+def _identity(records):
+    from screener.screening import shared_records
+
+    return shared_records.reads, tuple(r.catalog_id for r in records)
+
+
+def test_records_are_written_once_and_read_once_per_worker():
+    sc = hard_cases()
+    recs = Records(sc["secondaries"])
+    one, two = pickle.dumps(recs), pickle.dumps(recs)
+    assert one == two
+    assert recs.__reduce__()[1] is recs.__reduce__()[1]          # the same bytes, not again
+    back = pickle.loads(one)
+    assert tuple(back) == tuple(recs) and isinstance(back, Records)
+    pool = spawn_pool(1)
+    try:
+        a = pool.submit(_identity, recs).result()
+        b = pool.submit(_identity, recs).result()
+        c = pool.submit(_identity, Records(sc["primaries"])).result()
+    finally:
+        pool.shutdown(wait=True)
+    assert a[0] == b[0] == 1 and c[0] == 2                # read once in the worker
+    assert a[1] == b[1] == tuple(r.catalog_id for r in sc["secondaries"])
+    assert c[1] == tuple(r.catalog_id for r in sc["primaries"])
