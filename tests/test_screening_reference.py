@@ -266,3 +266,36 @@ def test_slow_pass_entry_and_exit_times_match_sgp4_sampled_every_second():
             assert got == pytest.approx(want, abs=0.01)
             checked += 1
     assert checked >= 3 and all(x.relative_speed_km_s < 0.01 for x in res.encounters)
+
+
+def test_radial_bounds_in_arrays_equal_the_sgp4_library_orbit_size():
+    """The apogee/perigee filter's bounds for a whole catalog at once (filters.orbit_columns,
+    radial_bounds_many).  References: Kepler's third law in Newton's form, n^2 a^3 = mu
+    (WGS-72 mu), written out per object with the element set's mean motion, bitwise; and the
+    radii plain sgp4 reaches over the window, sampled every minute, which the bounds must
+    contain."""
+    from screener import synth
+    from screener.constants import MU_WGS72_KM3_S2
+    from screener.screening.filters import orbit_columns, radial_bounds_many
+
+    sc = hard_cases()
+    recs = sc["primaries"] + sc["secondaries"] + synth.background_catalog(
+        400, sc["jd0"], sc["fr0"], seed=9, id_of=lambda k: f"R{k:04d}")
+    cols = orbit_columns(recs)
+    for k, r in enumerate(recs):
+        n_rad_s = r.mean_motion_rev_day * 2.0 * np.pi / 86400.0
+        a = (MU_WGS72_KM3_S2 / n_rad_s**2) ** (1.0 / 3.0)
+        assert cols["a_km"][k] == a
+        assert cols["perigee_km"][k] == a * (1.0 - r.eccentricity)
+        assert cols["apogee_km"][k] == a * (1.0 + r.eccentricity)
+    ages = np.array([r.age_days_at(sc["jd0"], sc["fr0"]) for r in recs])
+    bounds = radial_bounds_many(recs, WINDOW_S / 86400.0, ages, cols)
+    sats = SatrecArray([r.make_satrec() for r in recs])
+    t = np.arange(0.0, WINDOW_S + 1.0, 60.0)
+    e, pos, _ = sats.sgp4(np.full(len(t), sc["jd0"]), sc["fr0"] + t / 86400.0)
+    rad = np.linalg.norm(pos, axis=2)
+    ok = e == 0
+    assert ok.mean() > 0.95
+    lo = np.where(ok, rad, np.inf).min(axis=1)
+    hi = np.where(ok, rad, -np.inf).max(axis=1)
+    assert (lo >= bounds[:, 0]).all() and (hi <= bounds[:, 1]).all()

@@ -28,7 +28,8 @@ from . import encounter_columns
 from .shared_records import Records
 from .encounter import (SLOW_RELATIVE_SPEED_KM_S, Encounter, add_range_profiles, fill_altitudes,
                         make_encounters)
-from .filters import apogee_perigee_mask, bounds_array, radial_bounds_km
+from .filters import (apogee_perigee_mask, bounds_array, orbit_columns, radial_bounds_km,
+                      radial_bounds_many)
 from .refine import VolumeCrossings, brackets_from_candidates, solve_tcas
 from .ric import to_ric
 from .sieve import all_pairs_candidates, fleet_candidates, top_speeds
@@ -172,11 +173,12 @@ def run_task(task: Task) -> TaskResult:
     if not task.all_vs_all:
         # radial bounds once per secondary; the secondaries the two-body fill covers first, so
         # that their rows are one block
-        bounds = [_bounds(rec, task) for rec in sec]
-        ok = [_fillable(rec, b[0], task) for rec, b in zip(sec, bounds)]
-        order = [k for k in range(len(sec)) if ok[k]] + [k for k in range(len(sec)) if not ok[k]]
-        sec, bounds = [sec[k] for k in order], [bounds[k] for k in order]
-        n_fill = sum(ok)
+        orbits = orbit_columns(sec)
+        bounds = _bounds_many(sec, task, orbits)
+        ok = _fillable(sec, bounds[:, 0], orbits["period_s"], task)
+        order = np.r_[np.nonzero(ok)[0], np.nonzero(~ok)[0]].astype(int)
+        sec, bounds = [sec[k] for k in order.tolist()], bounds[order]
+        n_fill = int(ok.sum())
     pop = Population(prim + sec, oems=task.primary_oems)
     n_p_rec = len(prim)
     p_rows = list(range(n_p_rec)) + list(range(len(prim) + len(sec), len(pop)))
@@ -212,7 +214,7 @@ def run_task(task: Task) -> TaskResult:
     else:
         s_arr = np.array(s_rows, int)
         if len(s_arr):
-            s_bounds = bounds_array(bounds)
+            s_bounds = bounds
             s_top = top_speeds(v)[s_arr]      # no copy of the rows
         # a filled secondary's fine states are two-body from the nearest exact sample: its
         # reach grows by the fill's position bound and, for the range-rate term h W / 2, by
@@ -251,16 +253,18 @@ def run_task(task: Task) -> TaskResult:
     return TaskResult(_dedupe(out), unusable, stats)
 
 
-def _fillable(rec: ElementSet, min_radius_km: float, task: Task) -> bool:
-    """Whether the two-body fill's bound covers this secondary over the task: a near-earth
-    element set (SGP4's deep-space branch is left out) that does not re-enter in the window
-    and whose lowest radius (its radial bound) stays above kepler_fill.FILL_MIN_PERIGEE_KM."""
+def _fillable(recs: Sequence[ElementSet], min_radius_km: np.ndarray, period_s: np.ndarray,
+              task: Task) -> np.ndarray:
+    """Which secondaries the two-body fill's bound covers over the task: near-earth element
+    sets (SGP4's deep-space branch is left out) that do not re-enter in the window and whose
+    lowest radius (their radial bound) stays above kepler_fill.FILL_MIN_PERIGEE_KM."""
     from ..constants import RE_WGS72_KM
     from ..propagation.kepler_fill import FILL_MIN_PERIGEE_KM
     from .filters import DEEP_SPACE_PERIOD_S
 
-    return (rec.catalog_id not in task.cutoff_s and rec.orbit().period_s < DEEP_SPACE_PERIOD_S
-            and min_radius_km >= RE_WGS72_KM + FILL_MIN_PERIGEE_KM)
+    kept = np.array([rec.catalog_id not in task.cutoff_s for rec in recs], bool)
+    return (kept & (period_s < DEEP_SPACE_PERIOD_S)
+            & (min_radius_km >= RE_WGS72_KM + FILL_MIN_PERIGEE_KM))
 
 
 def _fleet_states(pop: Population, task: Task, t: np.ndarray, fill_rows: np.ndarray):
@@ -393,7 +397,8 @@ def decay_cutoffs(catalog: Sequence[ElementSet], jd0: float, fr0: float, duratio
     workers (the probe runs before any task can start)."""
     from ..constants import RE_WGS72_KM
 
-    low = [r for r in catalog if r.orbit().perigee_radius_km - RE_WGS72_KM < DECAY_PERIGEE_KM]
+    perigee_km = orbit_columns(catalog)["perigee_km"] if len(catalog) else np.zeros(0)
+    low = [catalog[k] for k in np.nonzero(perigee_km - RE_WGS72_KM < DECAY_PERIGEE_KM)[0].tolist()]
     if executor is None or parts <= 1 or len(low) < DECAY_PROBE_MIN_PARALLEL:
         return _probe_decay(low, jd0, fr0, duration_s)
     size = -(-len(low) // parts)
@@ -428,6 +433,12 @@ def _probe_decay(low: Sequence[ElementSet], jd0: float, fr0: float,
 def _bounds(rec: ElementSet, task: Task):
     age0 = rec.age_days_at(task.jd0, task.fr0)
     return radial_bounds_km(rec, task.window_s / 86400.0, age0)
+
+
+def _bounds_many(recs: Sequence[ElementSet], task: Task, orbits: dict | None = None) -> np.ndarray:
+    """_bounds of many element sets, (n, 2), the same numbers in array operations."""
+    ages = np.array([r.age_days_at(task.jd0, task.fr0) for r in recs], float)
+    return radial_bounds_many(recs, task.window_s / 86400.0, ages, orbits)
 
 
 def _pop_bounds(pop: Population, k: int, task: Task):
@@ -477,7 +488,7 @@ def plan_tasks(req: ScreeningRequest, spans: int | None = None, executor=None) -
         for o in req.primary_oems:
             orb = Population(oems=[o]).orbit(0)
             p_b.append((orb.perigee_radius_km - 50.0, orb.apogee_radius_km + 50.0))
-        s_b = bounds_array([_bounds(s, probe) for s in req.catalog])
+        s_b = _bounds_many(req.catalog, probe)
         keep = apogee_perigee_mask(bounds_array(p_b), s_b, reach).any(axis=0) if len(req.catalog) else []
         survivors = [s for s, k in zip(req.catalog, keep) if k]
         chunks = [survivors[a:a + MAX_SECONDARIES_PER_TASK]

@@ -8,8 +8,11 @@ drag over the window, so each range is padded (see `radial_bounds_km`).
 
 from __future__ import annotations
 
+from typing import Sequence
+
 import numpy as np
 
+from ..constants import MU_WGS72_KM3_S2, TWO_PI
 from ..elements.record import ElementSet
 
 SHORT_PERIOD_PAD_KM = 25.0      # covers SGP4 short-period radial terms (order 10 km in LEO)
@@ -17,19 +20,43 @@ DEEP_SPACE_PAD_FRACTION = 0.01  # lunisolar changes of e over days for deep-spac
 DEEP_SPACE_PERIOD_S = 225.0 * 60.0
 
 
-def radial_bounds_km(rec: ElementSet, window_days: float, start_age_days: float) -> tuple[float, float]:
-    """Conservative [min, max] geocentric radius over the window, km."""
-    orb = rec.orbit()
+def orbit_columns(recs: Sequence[ElementSet]) -> dict[str, np.ndarray]:
+    """Semi-major axis, period, perigee and apogee radius (km, s) of many element sets at once,
+    by Kepler's third law as ElementSet.orbit() gives them one at a time."""
+    n_rev_day = np.array([r.mean_motion_rev_day for r in recs], float)
+    ecc = np.array([r.eccentricity for r in recs], float)
+    n_rad_s = n_rev_day * TWO_PI / 86400.0
+    # the cube root by the C library's pow, one number at a time, as orbit() takes it: numpy's
+    # vectorised power differs from it in the last bit for some values
+    a_km = np.array([(MU_WGS72_KM3_S2 / n**2) ** (1.0 / 3.0) for n in n_rad_s.tolist()], float)
+    return {"a_km": a_km, "period_s": TWO_PI / n_rad_s, "perigee_km": a_km * (1.0 - ecc),
+            "apogee_km": a_km * (1.0 + ecc), "n_rev_day": n_rev_day}
+
+
+def radial_bounds_many(recs: Sequence[ElementSet], window_days: float,
+                       start_age_days: np.ndarray, orbits: dict | None = None) -> np.ndarray:
+    """Conservative [min, max] geocentric radius over the window, km, (n, 2): one row per
+    element set, start_age_days[n] its age at the window start (orbits: orbit_columns of
+    the same records, when at hand)."""
+    orb = orbits if orbits is not None else orbit_columns(recs)
+    n_rev_day = orb["n_rev_day"]
+    ndot = np.array([r.ndot_rev_day2 for r in recs], float)
+    bstar = np.array([r.bstar_per_earth_radius for r in recs], float)
     # drag: dn/dt = 2 * ndot (rev/day^2); da/a = -(2/3) dn/n.  Use |ndot| and the B* term's
     # order of magnitude when ndot is absent; span from epoch to the window's far end.
-    span_days = abs(start_age_days) + window_days
-    dn = 2.0 * abs(rec.ndot_rev_day2) * span_days
-    dn = max(dn, abs(rec.bstar_per_earth_radius) * 0.5 * span_days * rec.mean_motion_rev_day)
-    da = (2.0 / 3.0) * orb.semi_major_axis_km * min(dn / rec.mean_motion_rev_day, 0.5)
-    pad = SHORT_PERIOD_PAD_KM
-    if orb.period_s > DEEP_SPACE_PERIOD_S:
-        pad += DEEP_SPACE_PAD_FRACTION * orb.semi_major_axis_km
-    return orb.perigee_radius_km - pad - da, orb.apogee_radius_km + pad
+    span_days = np.abs(np.asarray(start_age_days, float)) + window_days
+    dn = 2.0 * np.abs(ndot) * span_days
+    dn = np.maximum(dn, np.abs(bstar) * 0.5 * span_days * n_rev_day)
+    da = (2.0 / 3.0) * orb["a_km"] * np.minimum(dn / n_rev_day, 0.5)
+    pad = SHORT_PERIOD_PAD_KM + np.where(orb["period_s"] > DEEP_SPACE_PERIOD_S,
+                                         DEEP_SPACE_PAD_FRACTION * orb["a_km"], 0.0)
+    return np.stack([orb["perigee_km"] - pad - da, orb["apogee_km"] + pad], axis=1).reshape(-1, 2)
+
+
+def radial_bounds_km(rec: ElementSet, window_days: float, start_age_days: float) -> tuple[float, float]:
+    """Conservative [min, max] geocentric radius over the window, km (radial_bounds_many)."""
+    lo, hi = radial_bounds_many([rec], window_days, np.array([start_age_days]))[0].tolist()
+    return lo, hi
 
 
 def bounds_array(bounds: list[tuple[float, float]]) -> np.ndarray:
