@@ -111,3 +111,37 @@ def test_records_are_written_once_and_read_once_per_worker():
     assert a[0] == b[0] == 1 and c[0] == 2                # read once in the worker
     assert a[1] == b[1] == tuple(r.catalog_id for r in sc["secondaries"])
     assert c[1] == tuple(r.catalog_id for r in sc["primaries"])
+
+
+def _dedupe_as_stated(encs, tol_s):
+    """The rule written out plainly: in (primary, secondary, TCA) order drop an encounter
+    within tol_s of its pair's last kept one; then order by TCA (ties by pair)."""
+    out = []
+    for e in sorted(encs, key=lambda e: (e.primary, e.secondary, e.tca_s)):
+        if out and (out[-1].primary, out[-1].secondary) == (e.primary, e.secondary) \
+                and abs(out[-1].tca_s - e.tca_s) < tol_s:
+            continue
+        out.append(e)
+    return sorted(out, key=lambda e: e.tca_s)
+
+
+def test_merging_the_tasks_drops_the_same_duplicates_as_the_plain_rule(task_result):
+    """Spans meet at a boundary, where two tasks can find one minimum within a millisecond:
+    gather's array form of the rule (engine._dedupe) against the rule as stated, on the
+    scenario's encounters with copies shifted by 0 to 1.5 ms (chains longer than the
+    tolerance among them) and with equal TCAs across pairs."""
+    import random
+
+    from screener.screening.engine import DEDUPE_TOL_S, _dedupe
+
+    rng = random.Random(4)
+    base = task_result.encounters
+    copies = [dataclasses.replace(e, tca_s=e.tca_s + d) for e in base
+              for d in rng.sample([0.0, 0.0004, 0.0009, 0.0011, -0.0006, 0.0015, 0.0019], 3)]
+    tied = [dataclasses.replace(e, tca_s=1000.0) for e in base[::3]]
+    for encs in (base, base + copies, copies + tied + base):
+        encs = list(encs)
+        rng.shuffle(encs)
+        got, want = _dedupe(encs), _dedupe_as_stated(encs, DEDUPE_TOL_S)
+        assert len(got) == len(want) and all(a is b for a, b in zip(got, want))
+    assert len(_dedupe(base + copies)) < len(base + copies)

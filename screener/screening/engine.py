@@ -249,8 +249,10 @@ def run_task(task: Task) -> TaskResult:
     t_ref = time.perf_counter()
     out = _refine(pop, brackets, task, cutoff)
     stats["refine_s"] = time.perf_counter() - t_ref
+    out = _dedupe(out)
+    fill_altitudes(out)         # here, where the task's worker computes them alongside others
     stats["peak_rss_mb"] = _peak_rss_mb()
-    return TaskResult(_dedupe(out), unusable, stats)
+    return TaskResult(out, unusable, stats)
 
 
 def _fillable(recs: Sequence[ElementSet], min_radius_km: np.ndarray, period_s: np.ndarray,
@@ -449,13 +451,40 @@ def _pop_bounds(pop: Population, k: int, task: Task):
 
 
 def _dedupe(encs: list[Encounter]) -> list[Encounter]:
-    encs = sorted(encs, key=lambda e: (e.primary, e.secondary, e.tca_s))
-    out: list[Encounter] = []
-    for e in encs:
-        if out and out[-1].primary == e.primary and out[-1].secondary == e.secondary and \
-                abs(out[-1].tca_s - e.tca_s) < DEDUPE_TOL_S:
+    """One encounter per pair and TCA: in (primary, secondary, TCA) order, an encounter within
+    DEDUPE_TOL_S of the pair's last kept one is dropped.  Returned in (TCA, primary,
+    secondary) order.  The sorts are numpy's (stable); only runs of one pair closer than the
+    tolerance, and runs of equal TCAs, which are both rare, are walked in Python."""
+    n = len(encs)
+    if n < 2:
+        return list(encs)
+    tca = np.array([e.tca_s for e in encs], float)
+    codes: dict[tuple[str, str], int] = {}
+    pair = np.array([codes.setdefault((e.primary, e.secondary), len(codes)) for e in encs], np.int64)
+    order = np.lexsort((tca, pair))
+    close = (pair[order][1:] == pair[order][:-1]) & (np.diff(tca[order]) < DEDUPE_TOL_S)
+    keep = np.ones(n, bool)
+    for k in np.nonzero(close)[0].tolist():      # the start of a run of close neighbours
+        if k > 0 and close[k - 1]:
             continue
-        out.append(e)
+        last = k
+        while k < n - 1 and close[k]:
+            k += 1
+            if tca[order[k]] - tca[order[last]] < DEDUPE_TOL_S:
+                keep[order[k]] = False
+            else:
+                last = k
+    idx = np.nonzero(keep)[0]
+    idx = idx[np.argsort(tca[idx], kind="stable")]
+    out = [encs[i] for i in idx.tolist()]
+    ties = np.nonzero(np.diff(tca[idx]) == 0.0)[0]
+    for k in ties.tolist():                      # equal TCAs: in (primary, secondary) order
+        if k > 0 and tca[idx[k - 1]] == tca[idx[k]]:
+            continue
+        j = k + 1
+        while j + 1 < len(idx) and tca[idx[j + 1]] == tca[idx[k]]:
+            j += 1
+        out[k:j + 1] = sorted(out[k:j + 1], key=lambda e: (e.primary, e.secondary))
     return out
 
 
@@ -550,9 +579,7 @@ def screen(req: ScreeningRequest, progress: Progress | None = None, cancel=None,
 
 
 def gather(req: ScreeningRequest, results: Sequence[TaskResult], wall_s: float) -> ScreeningResult:
-    encs = _dedupe([e for r in results for e in r.encounters])
-    encs.sort(key=lambda e: e.tca_s)
-    fill_altitudes(encs)
+    encs = _dedupe([e for r in results for e in r.encounters])     # in TCA order
     # one entry per object and time span (a primary is in every chunk of secondaries of a
     # span and must count once), then merged over the spans
     per_span: dict[tuple[str, float], Unusable] = {}
