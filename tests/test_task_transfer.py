@@ -1,11 +1,14 @@
-"""What travels between the parent and its workers arrives unchanged.
+"""What travels between the parent and its workers, and what is made in bulk, arrives
+unchanged.
 
-A task's encounters go back as columns (screening/encounter_columns.py) and the element sets a
-task carries are pickled once and read once per worker (screening/shared_records.py).  The
-reference here is the object before the trip: a transfer must not change a value, so every
-float is compared bitwise, every field by type and the fields in their order.  The scenario
-(tests/scenarios.py, invented objects) only supplies realistic encounters: head-on, crossing,
-slow co-orbital passes with volume entry and exit times, GTO and GEO.
+A task's encounters go back as columns (screening/encounter_columns.py), the element sets a
+task carries are pickled once and read once per worker (screening/shared_records.py), the
+tasks' encounters are merged by an array form of the dedupe rule, and the records the JSON
+export and the store write are made in blocks (encounter.json_records).  The reference is the
+one-at-a-time form before the change (the object before the trip, the rule as stated,
+Python's datetime arithmetic): every float is compared bitwise, every field by type and the
+fields in their order.  The scenario (tests/scenarios.py, invented objects) only supplies
+realistic encounters: head-on, crossing, slow co-orbital passes, GTO and GEO.
 """
 
 from __future__ import annotations
@@ -145,3 +148,27 @@ def test_merging_the_tasks_drops_the_same_duplicates_as_the_plain_rule(task_resu
         got, want = _dedupe(encs), _dedupe_as_stated(encs, DEDUPE_TOL_S)
         assert len(got) == len(want) and all(a is b for a, b in zip(got, want))
     assert len(_dedupe(base + copies)) < len(base + copies)
+
+
+def test_records_made_in_blocks_equal_the_ones_made_one_at_a_time(task_result):
+    """json_records (what `screen --json` and the store write) against Encounter.to_json one
+    at a time, whose TCA text is Python's datetime arithmetic: the same dicts, also for TCAs
+    at day boundaries, before the window and half a microsecond off (rounding half to even),
+    for a block boundary and for profiles of unequal length."""
+    from screener.screening import encounter as enc
+
+    base = task_result.encounters
+    odd = [dataclasses.replace(e, tca_s=t, window_fr=fr) for e, t, fr in zip(
+        base * 3, [0.0, -1e-7, 86400.0 - 1e-7, 43200.0000005, 43200.0000015, -3 * 86400.5,
+                   12.3456785, 1e6] * 20, [0.0, 0.5, 0.999999999, 0.25] * 40)]
+    short = dataclasses.replace(base[0], range_profile_km=base[0].range_profile_km[:7])
+    encs = base + odd + [short]
+    old_block = enc.JSON_BLOCK
+    try:
+        enc.JSON_BLOCK = 37
+        got = list(enc.json_records(encs))
+    finally:
+        enc.JSON_BLOCK = old_block
+    want = [e.to_json() for e in encs]
+    assert got == want
+    assert [g["tca"] for g in got] == [w["tca"] for w in want]

@@ -119,6 +119,7 @@ def stage_breakdown(stats: dict) -> dict:
 
 def write_result_json(path, res, extra: dict | None = None) -> None:
     from ..exports.tables import write_json
+    from ..screening.encounter import json_records
     from ..timeutil import iso_z, jd_to_datetime
 
     req = res.request
@@ -132,7 +133,7 @@ def write_result_json(path, res, extra: dict | None = None) -> None:
         **(extra or {}),
     }
     try:
-        write_json(path, head, [e.to_json() for e in res.encounters])
+        write_json(path, head, list(json_records(res.encounters)))
     except OSError as exc:
         raise ScreenerError(f"cannot write {path}: {exc.strerror}") from None
 

@@ -241,6 +241,12 @@ def execute(cfg: Config, store=None, progress: Progress | None = None, cancel=No
         start = resolve_start(cfg, now)
         jd0, fr0 = datetime_to_jd(start)
         note(f"window {iso_z(start, 3)} + {cfg.window_days:g} d")
+        if executor is None and not cfg.dask_scheduler and cfg.workers > 1:
+            from ..workers import ENGINE_MODULES, spawn_pool
+
+            # one pool for the screening's tasks and the risk chunks, started before the
+            # inputs are read: its workers import the engine meanwhile
+            pool = executor = spawn_pool(cfg.workers, preload=ENGINE_MODULES)
         report("loading", 0, 1)
         t0 = time.perf_counter()
         inputs = load_inputs(cfg, jd0, fr0, warned)
@@ -263,11 +269,6 @@ def execute(cfg: Config, store=None, progress: Progress | None = None, cancel=No
 
             client, executor = connect(cfg.dask_scheduler, cfg.dask_tls, cfg.dask_allow_plain_tcp)
             note(f"running tasks on the Dask cluster at {cfg.dask_scheduler}")
-        elif executor is None and cfg.workers > 1:
-            from ..workers import spawn_pool
-
-            # one pool for the screening's tasks and the risk chunks: its workers start once
-            pool = executor = spawn_pool(cfg.workers)
         try:
             result = screen(req, progress=report, cancel=cancel, executor=executor)
         finally:

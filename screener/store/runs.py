@@ -16,6 +16,7 @@ from ..timeutil import iso_z, jd_to_datetime
 from ..elements.omm import omm_fields
 from ..elements.record import SGP4_MAX_SATNUM
 from ..elements.tle import catalog_id_to_int
+from ..screening.encounter import json_records
 from .db import Store
 from .events import RunSignatures, change_of, event_trend, inputs_signature, match_events, run_diff
 
@@ -101,9 +102,8 @@ def commit_run(store: Store, *, name: str, config_snapshot: dict, inputs_files: 
         def rows():
             # one record at a time, written as it is made: holding all of them first (about
             # 200 MB of text at 70,000 encounters) cost more in fresh memory than the writing
-            for e, t, m, rank, tr, ch in staged:
+            for (e, t, m, rank, tr, ch), data in zip(staged, json_records(encs)):
                 rk = e.risk
-                data = e.to_json()
                 data.update({"trend": tr, "change": ch, "event_id": m.event_id})
                 if m.prev is not None:
                     data["previous"] = {"run_id": m.prev["run_id"], "miss_km": m.prev["miss_km"],

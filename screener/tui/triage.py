@@ -18,7 +18,7 @@ from ..risk.agreement import rule_of
 from ..store import queries
 from ..store.queries import thresholds_of
 from ..store.received import with_received
-from ..workers import spawn_pool
+from ..workers import ENGINE_MODULES, spawn_pool
 from .encounter_list import ColumnHeader, EncounterList
 from .model import RunView, summary_line
 from .widgets import CautionBar
@@ -317,7 +317,7 @@ class TriageScreen(Screen):
 
         # The engine always runs in worker processes here, even for workers = 1: SGP4's array
         # propagation holds the GIL, and in this process it would stall the UI.
-        pool = spawn_pool(max(1, cfg.workers))
+        pool = spawn_pool(max(1, cfg.workers), preload=ENGINE_MODULES)
         try:
             store = Store(self.app.store_path)
             try:
