@@ -51,8 +51,9 @@ def _elset_rows(run_id, req, encounters):
                        ("catalog", [r for r in req.catalog if r.catalog_id in involved])):
         for r in recs:
             l1, l2 = r.to_tle() if tle_writable(r) else (None, None)
+            omm = omm_fields(r)         # its EPOCH is the record's epoch text (iso_z, 6 digits)
             rows.append((run_id, r.catalog_id, r.name, role, "element set",
-                         iso_z(r.epoch, 6), str(r.source), l1, l2, json.dumps(omm_fields(r))))
+                         omm["EPOCH"], str(r.source), l1, l2, orjson.dumps(omm).decode()))
     for o in req.primary_oems:
         seg = o.segments[0]
         rows.append((run_id, o.object_id, o.object_name, "primary", "OEM",
@@ -99,11 +100,15 @@ def commit_run(store: Store, *, name: str, config_snapshot: dict, inputs_files: 
             staged.append((e, t, m, rank, event_trend(m.history, e.miss_km, signature, m.prev, signatures),
                            change_of(m.prev, rank)))
 
+        written = []        # what run_diff reads of each row, instead of reading it back
+
         def rows():
             # one record at a time, written as it is made: holding all of them first (about
             # 200 MB of text at 70,000 encounters) cost more in fresh memory than the writing
             for (e, t, m, rank, tr, ch), data in zip(staged, json_records(encs)):
                 rk = e.risk
+                written.append((m.event_id, e.primary, e.secondary, data["tca"], float(t),
+                                float(e.miss_km), float(rk["pc"]), rk["attention"], ch))
                 data.update({"trend": tr, "change": ch, "event_id": m.event_id})
                 if m.prev is not None:
                     data["previous"] = {"run_id": m.prev["run_id"], "miss_km": m.prev["miss_km"],
@@ -122,7 +127,7 @@ def commit_run(store: Store, *, name: str, config_snapshot: dict, inputs_files: 
             " covariance_source, dilution, trend, change, data_json, flags)"
             " VALUES (?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?)", rows())
         hold_for_tests("before-commit")
-        diff = run_diff(conn, run_id, name, w0)
+        diff = run_diff(conn, run_id, name, w0, written)
         conn.execute("COMMIT")
     except BaseException:
         conn.execute("ROLLBACK")
