@@ -75,6 +75,22 @@ def jd_to_datetime(jd: float, fr: float) -> _dt.datetime:
     return _dt.datetime(1970, 1, 1, tzinfo=_dt.timezone.utc) + _dt.timedelta(days=days, microseconds=us)
 
 
+def iso_us_many(jd, fr) -> list[str]:
+    """iso_z(jd_to_datetime(jd[n], fr[n]), 6) of many split Julian dates: the same operations
+    element by element in numpy (floor, round half to even), the text by numpy's datetime64."""
+    import numpy as np
+
+    whole = np.asarray(jd, float) - _JD_UNIX_EPOCH
+    days = np.floor(whole)
+    rest = (whole - days) + np.asarray(fr, float)
+    extra = np.floor(rest)
+    days = days + extra
+    rest = rest - extra
+    us = np.round(rest * DAY_S * 1e6)
+    total = days.astype(np.int64) * 86_400_000_000 + us.astype(np.int64)
+    return [f"{x}Z" for x in np.datetime_as_string(total.astype("datetime64[us]"), unit="us").tolist()]
+
+
 def iso_z(t: _dt.datetime, digits: int = 6) -> str:
     """ISO 8601 UTC ending in Z, with `digits` decimals of seconds (3 = ms, 6 = µs)."""
     s = t.astimezone(_dt.timezone.utc).isoformat(timespec="microseconds")

@@ -9,7 +9,7 @@ from typing import Iterator
 import numpy as np
 
 from ..propagation.ephemeris import lagrange_weights
-from ..timeutil import iso_z, jd_to_datetime
+from ..timeutil import iso_us_many, iso_z, jd_to_datetime
 from .ric import to_ric
 
 SLOW_RELATIVE_SPEED_KM_S = 0.1  # below this the pass is slow: entry/exit times are reported
@@ -104,28 +104,11 @@ def json_records(encounters) -> Iterator[dict]:
     encounters = list(encounters)
     for a in range(0, len(encounters), JSON_BLOCK):
         block = encounters[a:a + JSON_BLOCK]
-        tca = _iso_many([e.window_jd for e in block], [e.window_fr for e in block],
-                        [e.tca_s for e in block])
+        tca = iso_us_many(np.array([e.window_jd for e in block]),
+                          np.array([e.window_fr + e.tca_s / 86400.0 for e in block]))
         profiles = _rounded_profiles(block)
         for e, t, prof in zip(block, tca, profiles):
             yield e.to_json(tca=t, range_profile_km=prof)
-
-
-def _iso_many(jd, fr, t_s) -> list[str]:
-    """_iso of many times (jd_to_datetime and iso_z with 6 digits, element by element)."""
-    from ..timeutil import _JD_UNIX_EPOCH, DAY_S
-
-    jd, fr, t_s = (np.asarray(x, float) for x in (jd, fr, t_s))
-    whole = jd - _JD_UNIX_EPOCH
-    days = np.floor(whole)
-    rest = (whole - days) + (fr + t_s / 86400.0)
-    extra = np.floor(rest)
-    days = days + extra
-    rest = rest - extra
-    us = np.round(rest * DAY_S * 1e6)             # half to even, as Python's round
-    total = days.astype(np.int64) * 86_400_000_000 + us.astype(np.int64)
-    text = np.datetime_as_string(total.astype("datetime64[us]"), unit="us")
-    return [f"{x}Z" for x in text.tolist()]
 
 
 def _rounded_profiles(block) -> list:

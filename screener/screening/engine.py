@@ -399,7 +399,7 @@ def decay_cutoffs(catalog: Sequence[ElementSet], jd0: float, fr0: float, duratio
     workers (the probe runs before any task can start)."""
     from ..constants import RE_WGS72_KM
 
-    perigee_km = orbit_columns(catalog)["perigee_km"] if len(catalog) else np.zeros(0)
+    perigee_km = orbit_columns(catalog)["perigee_km"]
     low = [catalog[k] for k in np.nonzero(perigee_km - RE_WGS72_KM < DECAY_PERIGEE_KM)[0].tolist()]
     if executor is None or parts <= 1 or len(low) < DECAY_PROBE_MIN_PARALLEL:
         return _probe_decay(low, jd0, fr0, duration_s)

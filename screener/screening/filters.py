@@ -50,7 +50,7 @@ def radial_bounds_many(recs: Sequence[ElementSet], window_days: float,
     da = (2.0 / 3.0) * orb["a_km"] * np.minimum(dn / n_rev_day, 0.5)
     pad = SHORT_PERIOD_PAD_KM + np.where(orb["period_s"] > DEEP_SPACE_PERIOD_S,
                                          DEEP_SPACE_PAD_FRACTION * orb["a_km"], 0.0)
-    return np.stack([orb["perigee_km"] - pad - da, orb["apogee_km"] + pad], axis=1).reshape(-1, 2)
+    return np.stack([orb["perigee_km"] - pad - da, orb["apogee_km"] + pad], axis=1)
 
 
 def radial_bounds_km(rec: ElementSet, window_days: float, start_age_days: float) -> tuple[float, float]:
