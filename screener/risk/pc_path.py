@@ -14,7 +14,7 @@ import dataclasses
 
 import numpy as np
 
-from scipy import stats
+from scipy import special
 
 from .pc import Z99, MonteCarloPc, wilson
 
@@ -198,9 +198,13 @@ def pc_path_upper_bound(path_km: np.ndarray, cov_km2: np.ndarray, hbr_km: float)
     u = np.clip(-s0 / seg_len, 0.0, 1.0)
     d_seg = float(np.linalg.norm(a + (u * seg_len)[:, None] * e, axis=1).min())
     d_min = d_seg - r_w
-    tail = 1.0 if d_min <= 0 else float(stats.chi2.sf(d_min * d_min, 3))
-    across = stats.ncx2.cdf(r_w * r_w, 2, d_line * d_line)
-    along = stats.norm.cdf(s0 + seg_len + r_w) - stats.norm.cdf(s0 - r_w)
+    # scipy.stats' chi2.sf, ncx2.cdf and norm.cdf are these special functions (the same
+    # values, without the import of scipy.stats or its per-call checks)
+    tail = 1.0 if d_min <= 0 else float(special.chdtrc(3, d_min * d_min))
+    nc = d_line * d_line
+    with np.errstate(over="ignore"):
+        across = np.where(nc != 0, special.chndtr(r_w * r_w, 2, nc), special.chdtr(2, r_w * r_w))
+    along = special.ndtr(s0 + seg_len + r_w) - special.ndtr(s0 - r_w)
     union = float(np.sum(across * along))
     # the special functions underflow to 0 far in the tails: never claim less than the floor
     return max(BOUND_FLOOR, min(1.0, tail, union))
