@@ -58,6 +58,36 @@ def test_sources_in_order_of_preference():
     assert got.source == ASSUMED and got.label().startswith("assumed covariance")
 
 
+def test_estimates_for_many_objects_equal_one_at_a_time():
+    """estimate_many (the risk stage's columns: the assumed model in array operations, every
+    other source through estimate) gives each object the same covariance, bitwise, and the
+    same source and label as estimate() one object at a time, with every source taking part
+    (an OEM, a configured object and regime, an element-set history, the assumed model in
+    each regime, negative ages)."""
+    oem = read_oem(os.path.join(DEMO, "larkspur-3.oem"))
+    base = synth.circular("X0001", "HIST", 700.0, 98.0, 10.0, 0.0, JD0, FR0 - 0.2)
+    sets = _history(base, offsets_km=lambda dt: 0.1 + 0.3 * dt)
+    src = CovarianceSources(oems=[oem], configured={"X0002": SigmaGrowth((0.05, 0.2, 0.05)),
+                                                    "GEO": SigmaGrowth((0.4, 1.0, 0.4), (0.1, 0.2, 0.1))},
+                            history={"X0001": sets})
+    ids = ["2026-903A", "X0002", "X0001", "X0003", "X0004", "X0005", "X0006", "X0007", "X0008"]
+    regimes = ["LEO", "LEO", "LEO", "LEO", "MEO", "GEO", "HEO", "SPACE", "LEO"]
+    ages = [0.5, 0.5, 0.5, 1.7, 0.25, 3.0, 0.8, 2.0, -1.3]
+    tjd = [JD0] * len(ids)
+    tfr = [FR0 + 0.3] * len(ids)
+    many = src.estimate_many(ids, regimes, ages, tjd, tfr, {"X0008": ("X0002",)})
+    got_sources = []
+    for k, oid in enumerate(ids):
+        one = src.estimate(oid, regimes[k], ages[k], tjd[k], tfr[k],
+                           ("X0002",) if oid == "X0008" else ())
+        assert (many.cov_rtn_km2[k] == one.cov_rtn_km2).all(), oid
+        assert many.source[k] == one.source and many.label[k] == one.label(), oid
+        assert tuple(many.sigma_rtn_km[k].tolist()) == one.sigma_rtn_km
+        got_sources.append(one.source)
+    assert set(got_sources) == {OEM, CONFIGURED, HISTORY, ASSUMED}
+    assert many.assumed.tolist() == [s == ASSUMED for s in got_sources]
+
+
 def _history(rec, offsets_km, backs=(4.0, 3.0, 2.0, 1.0)):
     """Older sets of the same orbit whose in-track error is offsets_km(age) (alternating sign)."""
     out = []

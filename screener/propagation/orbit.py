@@ -100,10 +100,16 @@ def regimes_many(r_km, v_km_s, mu_km3_s2: float | None = None,
                  earth_radius_km: float | None = None) -> list[str]:
     """The regime (OrbitSize.regime) of the osculating orbit of each of many states, (n, 3)
     arrays; an unbound state counts as HEO."""
+    import numpy as np
+
     mu, re = _mu_re(mu_km3_s2, earth_radius_km)
     a, e, _h = _two_body_many(r_km, v_km_s, mu)
-    out = []
-    for ak, ek in zip(a.tolist(), e.tolist()):
-        size = _size(ak, ek, mu, re)
-        out.append(size.regime if size is not None else "HEO")
-    return out
+    # OrbitSize.regime's rules on _size's figures, as array operations
+    with np.errstate(invalid="ignore", over="ignore"):
+        perigee_alt = a * (1.0 - e) - re
+        apogee_alt = a * (1.0 + e) - re
+        period = TWO_PI * np.sqrt(a ** 3 / mu)
+        geo = (np.abs(period - 86164.1) < 0.1 * 86164.1) & (apogee_alt - perigee_alt < 2000)
+        code = np.select([~(a > 0), apogee_alt < 2000.0, geo, perigee_alt < 2000.0], [3, 0, 2, 3], 1)
+    names = ("LEO", "MEO", "GEO", "HEO")
+    return [names[k] for k in code.tolist()]

@@ -3,16 +3,19 @@ to the screening engine's encounters."""
 
 from __future__ import annotations
 
+import dataclasses
 import math
+from operator import attrgetter
+from types import SimpleNamespace
 from typing import Callable, Mapping, Sequence
 
 import numpy as np
 
 from ..gcpause import gc_paused
 from ..screening.encounter import Encounter
-from .assess import assess_many
+from .assess import assess_columns
 from .attention import Thresholds
-from .covariance import CovarianceSources
+from .covariance import ASSUMED, CovarianceSources
 from .flags import encounter_flags
 
 # Common practice: hard-body radius = sum of the two circumscribing-sphere radii.  With
@@ -26,16 +29,57 @@ SLOW_PASS_KM_S = 0.1
 ASSUMED_LABEL = "assumed covariance"
 
 
-def _regimes(encounters: Sequence[Encounter]) -> list[str]:
-    """The regime (OrbitSize.regime) of the osculating orbit at TCA of the primary and the
-    secondary of every encounter, interleaved; unbound states count as HEO."""
-    from ..propagation.orbit import regimes_many
+@dataclasses.dataclass
+class _Columns:
+    """What the risk stage reads of each encounter, as columns: from Encounter objects
+    (attach_risk) or straight from pack_for_risk's arrays in a worker (risk_of_chunk)."""
+    primary: list[str]
+    secondary: list[str]
+    tca_jd: list[float]
+    tca_fr: list[float]
+    primary_age_days: list[float]
+    secondary_age_days: list[float]
+    relative_speed_km_s: list[float]
+    profile_half_s: list[float]
+    r1: np.ndarray          # (n, 3) primary position, km (C-ordered)
+    v1: np.ndarray
+    r2: np.ndarray
+    v2: np.ndarray
+    paths: list             # each encounter's relative path ((m, 3) or empty)
 
-    if not encounters:
-        return []
-    r = np.array([x for e in encounters for x in (e.primary_r_km, e.secondary_r_km)], float)
-    v = np.array([x for e in encounters for x in (e.primary_v_km_s, e.secondary_v_km_s)], float)
-    return regimes_many(r, v)
+    @classmethod
+    def of(cls, encounters: Sequence[Encounter]) -> "_Columns":
+        tca = [e.tca_jd for e in encounters]
+        return cls([e.primary for e in encounters], [e.secondary for e in encounters],
+                   [t[0] for t in tca], [t[1] for t in tca],
+                   [e.primary_age_days for e in encounters], [e.secondary_age_days for e in encounters],
+                   [e.relative_speed_km_s for e in encounters], [e.profile_half_s for e in encounters],
+                   *(np.array([getattr(e, f) for e in encounters], float).reshape(-1, 3)
+                     for f in _PACKED_VECTORS),
+                   [e.relative_path_km for e in encounters])
+
+    @classmethod
+    def unpacked(cls, packed: dict) -> "_Columns":
+        num, lens, paths = packed["num"], packed["path_lens"], packed["paths"]
+        ends = np.cumsum(lens).tolist()
+        col = {f: num[:, k] for k, f in enumerate(_PACKED_SCALARS)}
+        ns = len(_PACKED_SCALARS)
+        vec = [np.ascontiguousarray(num[:, ns + 3 * i:ns + 3 * i + 3]) for i in range(len(_PACKED_VECTORS))]
+        return cls([p for p, _s in packed["ids"]], [s for _p, s in packed["ids"]],
+                   col["window_jd"].tolist(), (col["window_fr"] + col["tca_s"] / 86400.0).tolist(),
+                   col["primary_age_days"].tolist(), col["secondary_age_days"].tolist(),
+                   col["relative_speed_km_s"].tolist(), col["profile_half_s"].tolist(), *vec,
+                   [paths[e - n:e] if n else () for e, n in zip(ends, lens.tolist())])
+
+    def path_view(self, k: int) -> SimpleNamespace:
+        """The fields _path_pc reads of encounter k."""
+        return SimpleNamespace(primary_r_km=self.r1[k], primary_v_km_s=self.v1[k],
+                               secondary_r_km=self.r2[k], secondary_v_km_s=self.v2[k],
+                               relative_path_km=self.paths[k], profile_half_s=self.profile_half_s[k])
+
+
+def _interleaved(a: Sequence, b: Sequence) -> list:
+    return [x for pair in zip(a, b) for x in pair]
 
 
 @gc_paused
@@ -50,42 +94,60 @@ def attach_risk(encounters: Sequence[Encounter], sources: CovarianceSources,
     total) is called every few encounters.  path_not_sent[n]: encounter n has a relative
     path that was left out (pack_for_risk); if its Pc needs one, its record is marked
     PATH_PENDING instead."""
+    records = _risk_records(_Columns.of(encounters), sources, radius_m, thresholds, aliases,
+                            progress, path_not_sent)
+    for e, out in zip(encounters, records):
+        e.risk = out
+
+
+def _risk_records(c: _Columns, sources: CovarianceSources, radius_m, thresholds: Thresholds,
+                  aliases, progress, path_not_sent) -> list[dict]:
+    """attach_risk's records, from columns.  The regimes, the assumed covariances, the 2-D
+    figures and the covariance figures of the records run as array operations over the whole
+    chunk; what stays per encounter is assembling its record (and the slow passes' Monte
+    Carlo)."""
+    from ..propagation.orbit import regimes_many
+
     radius_m = radius_m or (lambda _id: DEFAULT_OBJECT_RADIUS_M)
-    aliases = aliases or {}
-    total = len(encounters)
-    staged = []
-    regimes = _regimes(encounters)
-    for n, e in enumerate(encounters):
-        if progress and n % 500 == 0:
-            progress("risk", n, total)
-        tjd, tfr = e.tca_jd
-        est = []
-        for oid, regime, age in ((e.primary, regimes[2 * n], e.primary_age_days),
-                                 (e.secondary, regimes[2 * n + 1], e.secondary_age_days)):
-            est.append(sources.estimate(oid, regime, age, tjd, tfr, aliases.get(oid, ())))
-        hbr_m = radius_m(e.primary) + radius_m(e.secondary)
-        assumed_any = any(x.assumed for x in est)
-        label = ASSUMED_LABEL if assumed_any else " + ".join(dict.fromkeys(x.source for x in est))
-        staged.append((e, est, hbr_m, assumed_any,
-                       (e.primary_r_km, e.primary_v_km_s, est[0].cov_rtn_km2, e.secondary_r_km,
-                        e.secondary_v_km_s, est[1].cov_rtn_km2, hbr_m, label)))
-    results = assess_many([x[4] for x in staged])
-    sigma3d_max = (np.linalg.eigvalsh(np.array([x[1][0].cov_rtn_km2 + x[1][1].cov_rtn_km2 for x in staged]))
-                   .max(axis=1).tolist() if staged else [])
-    for n, ((e, est, hbr_m, assumed_any, _args), out) in enumerate(zip(staged, results)):
+    total = len(c.primary)
+    if not total:
+        return []
+    if progress:
+        progress("risk", 0, total)
+    # the osculating orbit's regime of each object at TCA, primary and secondary interleaved
+    regimes = regimes_many(np.stack([c.r1, c.r2], axis=1).reshape(-1, 3),
+                           np.stack([c.v1, c.v2], axis=1).reshape(-1, 3))
+    tjd = _interleaved(c.tca_jd, c.tca_jd)
+    tfr = _interleaved(c.tca_fr, c.tca_fr)
+    est = sources.estimate_many(_interleaved(c.primary, c.secondary), regimes,
+                                _interleaved(c.primary_age_days, c.secondary_age_days), tjd, tfr,
+                                aliases)
+    hbr = [radius_m(p) + radius_m(s) for p, s in zip(c.primary, c.secondary)]
+    src, lab = est.source, est.label
+    assumed_any = [src[2 * n] == ASSUMED or src[2 * n + 1] == ASSUMED for n in range(total)]
+    label = [ASSUMED_LABEL if assumed_any[n] else " + ".join(dict.fromkeys(src[2 * n:2 * n + 2]))
+             for n in range(total)]
+    cov1 = np.ascontiguousarray(est.cov_rtn_km2[0::2])
+    cov2 = np.ascontiguousarray(est.cov_rtn_km2[1::2])
+    results = assess_columns(c.r1, c.v1, cov1, c.r2, c.v2, cov2, hbr, label)
+    sigma3d_max = np.linalg.eigvalsh(cov1 + cov2).max(axis=1).tolist()
+    sigma = [tuple(x) for x in est.sigma_rtn_km.tolist()]
+    cov_lists = est.cov_rtn_km2.tolist()
+    for n, out in enumerate(results):
         if progress and n % 10 == 0:
             progress("risk", n, total)
+        speed, hbr_m = c.relative_speed_km_s[n], hbr[n]
         sigma3d_km = math.sqrt(sigma3d_max[n])
-        t_enc_s = 2.0 * (5.0 * sigma3d_km + hbr_m / 1000.0) / max(e.relative_speed_km_s, 1e-9)
-        short_ok = e.relative_speed_km_s >= SLOW_PASS_KM_S and t_enc_s <= SHORT_ENCOUNTER_MAX_S
+        t_enc_s = 2.0 * (5.0 * sigma3d_km + hbr_m / 1000.0) / max(speed, 1e-9)
+        short_ok = speed >= SLOW_PASS_KM_S and t_enc_s <= SHORT_ENCOUNTER_MAX_S
         level, reason = thresholds.level(out["pc"], out["pc_max"], out["dilution_region"])
         out.update({
-            "assumed_covariance": assumed_any,
-            "primary_covariance": est[0].label(), "secondary_covariance": est[1].label(),
-            "primary_sigma_rtn_km": est[0].sigma_rtn_km,
-            "secondary_sigma_rtn_km": est[1].sigma_rtn_km,
-            "primary_cov_rtn_km2": est[0].cov_rtn_km2.tolist(),
-            "secondary_cov_rtn_km2": est[1].cov_rtn_km2.tolist(),
+            "assumed_covariance": assumed_any[n],
+            "primary_covariance": lab[2 * n], "secondary_covariance": lab[2 * n + 1],
+            "primary_sigma_rtn_km": sigma[2 * n],
+            "secondary_sigma_rtn_km": sigma[2 * n + 1],
+            "primary_cov_rtn_km2": cov_lists[2 * n],
+            "secondary_cov_rtn_km2": cov_lists[2 * n + 1],
             "short_encounter_ok": short_ok,
             "encounter_duration_s": t_enc_s,
             "attention": level, "attention_reason": reason,
@@ -93,12 +155,12 @@ def attach_risk(encounters: Sequence[Encounter], sources: CovarianceSources,
         if not short_ok:
             out["pc_note"] = ("2-D short-encounter Pc doubtful: slow pass or long time in the "
                               "combined uncertainty region")
-            if len(e.relative_path_km) >= 2:
-                _path_pc(e, est[0].cov_rtn_km2, est[1].cov_rtn_km2, out, hbr_m, thresholds)
+            if len(c.paths[n]) >= 2:
+                _path_pc(c.path_view(n), cov1[n], cov2[n], out, hbr_m, thresholds)
             elif path_not_sent is not None and path_not_sent[n]:
                 out[PATH_PENDING] = True      # risk_in_workers completes it with the path
-        out["flags"] = encounter_flags(assumed_any, bool(out["dilution_region"]), short_ok)
-        e.risk = out
+        out["flags"] = encounter_flags(assumed_any[n], bool(out["dilution_region"]), short_ok)
+    return results
 
 
 @gc_paused
@@ -107,11 +169,9 @@ def risk_of_chunk(packed: dict, oems, configured, history, radii: dict,
     """Risk for a chunk of encounters in a worker process: everything it needs comes as plain
     data (pack_for_risk's arrays, the covariance sources' inputs, each object's radius), the
     risk dicts go back."""
-    encounters = unpack_for_risk(packed)
     sources = CovarianceSources(oems=oems, configured=configured, history=history)
-    attach_risk(encounters, sources, radius_m=lambda oid: radii[oid], thresholds=thresholds,
-                path_not_sent=packed["path_not_sent"].tolist())
-    return [e.risk for e in encounters]
+    return _risk_records(_Columns.unpacked(packed), sources, lambda oid: radii[oid], thresholds,
+                         None, None, packed["path_not_sent"].tolist())
 
 
 # Set in a risk record made without the relative path that its encounter has and needs (a
@@ -142,35 +202,19 @@ def pack_for_risk(encounters: Sequence[Encounter]) -> dict:
     one (61 points), 103 MB at 70,548 encounters, whose copy alone took 1.2 s, and a faster
     pass needs it only when its covariance is so large that it stays in the combined region
     for more than SHORT_ENCOUNTER_MAX_S; such a record comes back marked PATH_PENDING."""
-    num = np.array([[getattr(e, f) for f in _PACKED_SCALARS]
-                    + [x for f in _PACKED_VECTORS for x in getattr(e, f)] for e in encounters],
+    scalars = attrgetter(*_PACKED_SCALARS)
+    num = np.array([(*scalars(e), *e.primary_r_km, *e.primary_v_km_s, *e.secondary_r_km,
+                     *e.secondary_v_km_s) for e in encounters],
                    float).reshape(len(encounters), len(_PACKED_SCALARS) + 12)
-    has_path = np.array([len(e.relative_path_km) >= 2 for e in encounters], bool)
-    lens = np.array([len(e.relative_path_km) if e.relative_speed_km_s < SLOW_PASS_KM_S else 0
-                     for e in encounters], int)
+    n_path = [len(e.relative_path_km) for e in encounters]
+    has_path = np.array(n_path, int) >= 2
+    lens = np.array([n if e.relative_speed_km_s < SLOW_PASS_KM_S else 0
+                     for e, n in zip(encounters, n_path)], int)
     paths = (np.concatenate([np.asarray(e.relative_path_km, float).reshape(-1, 3)
                              for e, n in zip(encounters, lens.tolist()) if n])
              if lens.any() else np.empty((0, 3)))
     return {"ids": [(e.primary, e.secondary) for e in encounters], "num": num,
             "path_lens": lens, "paths": paths, "path_not_sent": has_path & (lens == 0)}
-
-
-def unpack_for_risk(packed: dict) -> list[Encounter]:
-    """Encounters carrying the fields attach_risk reads (the others are left empty)."""
-    num, lens, paths = packed["num"], packed["path_lens"], packed["paths"]
-    ends = np.cumsum(lens)
-    ns = len(_PACKED_SCALARS)
-    nan = float("nan")
-    out = []
-    for k, (pid, sid) in enumerate(packed["ids"]):
-        row = num[k].tolist()
-        sc = dict(zip(_PACKED_SCALARS, row[:ns]))
-        vec = {f: tuple(row[ns + 3 * i:ns + 3 * i + 3]) for i, f in enumerate(_PACKED_VECTORS)}
-        path = paths[ends[k] - lens[k]:ends[k]] if lens[k] else ()
-        out.append(Encounter(primary=pid, primary_name="", secondary=sid, secondary_name="",
-                             miss_km=nan, radial_km=nan, in_track_km=nan, cross_track_km=nan,
-                             crossing_angle_deg=nan, relative_path_km=path, **sc, **vec))
-    return out
 
 
 def _path_pc(e: Encounter, cov1_rtn_km2, cov2_rtn_km2, out: dict, hbr_m: float,

@@ -87,7 +87,43 @@ class SigmaGrowth:
 def assumed(regime: str, age_days: float) -> CovarianceEstimate:
     s0, g = ASSUMED_MODEL.get(regime, ASSUMED_MODEL["HEO"])
     cov = SigmaGrowth(s0, g).at(age_days)
-    return CovarianceEstimate(cov, ASSUMED, f"{regime} model, element set {age_days:.1f} d old")
+    return CovarianceEstimate(cov, ASSUMED, _assumed_detail(regime, age_days))
+
+
+def _assumed_detail(regime: str, age_days: float) -> str:
+    return f"{regime} model, element set {age_days:.1f} d old"
+
+
+def assumed_many(regimes: Sequence[str], ages_days: np.ndarray) -> np.ndarray:
+    """assumed()'s covariances for many objects at once, (n, 3, 3): the same arithmetic
+    (sigma = s0 + g |age|, squared), so the same values."""
+    names = list(ASSUMED_MODEL)
+    index = {k: i for i, k in enumerate(names)}
+    heo = index["HEO"]
+    which = np.array([index.get(r, heo) for r in regimes], int)
+    s0 = np.array([ASSUMED_MODEL[k][0] for k in names], float)[which]
+    g = np.array([ASSUMED_MODEL[k][1] for k in names], float)[which]
+    sig = s0 + g * np.abs(np.asarray(ages_days, float))[:, None]
+    cov = np.zeros((len(which), 3, 3))
+    cov[:, [0, 1, 2], [0, 1, 2]] = sig * sig
+    return cov
+
+
+@dataclasses.dataclass(frozen=True)
+class Estimates:
+    """Covariance estimates of many objects as columns: what CovarianceEstimate gives of one."""
+    cov_rtn_km2: np.ndarray      # (n, 3, 3)
+    source: list[str]
+    label: list[str]             # CovarianceEstimate.label()
+
+    @property
+    def assumed(self) -> np.ndarray:
+        return np.array([s == ASSUMED for s in self.source], bool)
+
+    @property
+    def sigma_rtn_km(self) -> np.ndarray:
+        """(n, 3): the square roots of the diagonals (as CovarianceEstimate.sigma_rtn_km)."""
+        return np.sqrt(np.diagonal(self.cov_rtn_km2, axis1=1, axis2=2))
 
 
 def from_oem(oem: Oem, tca_jd: float, tca_fr: float) -> CovarianceEstimate | None:
@@ -204,3 +240,28 @@ class CovarianceSources:
             if self._fits[object_id] is not None:
                 return self._fits[object_id].at(tca_jd, tca_fr)
         return assumed(regime, age_days)
+
+    def _beyond_model(self, object_id: str, regime: str, aliases: Sequence[str]) -> bool:
+        """Whether estimate() may use a source other than the assumed model for this object."""
+        return (any(k in self._oems for k in (object_id, *aliases))
+                or any(k in self._configured for k in (object_id, *aliases, regime))
+                or len(self._history.get(object_id) or ()) >= HISTORY_MIN_SETS)
+
+    def estimate_many(self, object_ids: Sequence[str], regimes: Sequence[str], ages_days: Sequence[float],
+                      tca_jd: Sequence[float], tca_fr: Sequence[float],
+                      aliases: Mapping[str, Sequence[str]] | None = None) -> Estimates:
+        """estimate() for many objects: those that have an OEM, a configured covariance or an
+        element-set history one by one through estimate(), all others (the assumed model)
+        in array operations; the same estimates either way."""
+        aliases = aliases or {}
+        n = len(object_ids)
+        cov = assumed_many(regimes, ages_days) if n else np.zeros((0, 3, 3))
+        source = [ASSUMED] * n
+        label = [f"{ASSUMED} ({_assumed_detail(r, a)})" for r, a in zip(regimes, ages_days)]
+        if self._oems or self._configured or self._history:
+            for k, oid in enumerate(object_ids):
+                al = aliases.get(oid, ())
+                if self._beyond_model(oid, regimes[k], al):
+                    est = self.estimate(oid, regimes[k], ages_days[k], tca_jd[k], tca_fr[k], al)
+                    cov[k], source[k], label[k] = est.cov_rtn_km2, est.source, est.label()
+        return Estimates(cov, source, label)

@@ -51,16 +51,25 @@ def plane_basis_many(rho_km: np.ndarray, w_km_s: np.ndarray) -> np.ndarray:
 def project_many(rho_km: np.ndarray, w_km_s: np.ndarray, cov_combined_km2: np.ndarray) -> list[PlaneGeometry]:
     """project() for many encounters at once: rho, w (n, 3) and combined covariances (n, 3, 3)
     (km, km/s, km^2); plane figures in metres."""
+    m, sig, miss, c2, B = _plane_arrays(rho_km, w_km_s, cov_combined_km2)
+    return [PlaneGeometry(float(m[k, 0]), float(m[k, 1]), float(sig[k, 0]), float(sig[k, 1]),
+                          float(miss[k]), c2[k], B[k]) for k in range(len(m))]
+
+
+def project_columns(rho_km: np.ndarray, w_km_s: np.ndarray, cov_combined_km2: np.ndarray):
+    """project_many's figures as arrays, no PlaneGeometry objects: xm, ym, sx, sy, miss (m)."""
+    m, sig, miss, _c2, _B = _plane_arrays(rho_km, w_km_s, cov_combined_km2)
+    return m[:, 0], m[:, 1], sig[:, 0], sig[:, 1], miss
+
+
+def _plane_arrays(rho_km, w_km_s, cov_combined_km2):
     B = plane_basis_many(rho_km, w_km_s)
     c2 = np.einsum("nij,njk,nlk->nil", B, cov_combined_km2, B) * 1e6
     miss2 = np.einsum("nij,nj->ni", B, rho_km) * 1e3
     vals, vecs = np.linalg.eigh(c2)
     vals = np.maximum(vals, 1e-12)
     m = np.einsum("nji,nj->ni", vecs, miss2)
-    sig = np.sqrt(vals)
-    miss = np.linalg.norm(miss2, axis=1)
-    return [PlaneGeometry(float(m[k, 0]), float(m[k, 1]), float(sig[k, 0]), float(sig[k, 1]),
-                          float(miss[k]), c2[k], B[k]) for k in range(len(m))]
+    return m, np.sqrt(vals), np.linalg.norm(miss2, axis=1), c2, B
 
 
 def ric_to_inertial_cov_many(cov_ric: np.ndarray, r_km: np.ndarray, v_km_s: np.ndarray) -> np.ndarray:
