@@ -1,8 +1,8 @@
 """Compile the numba functions now (or load them from numba's cache): the two coarse sieves,
 the bracket search, the state gates, the two-body fill, the 2-D Pc quadrature's fixed rule
-and the along-path Monte Carlo's kernels.  `make` runs this after installing and the test
-session before its first test, so that no screening spends the compile time (about 10 s) on
-its first call.
+and its adaptive rule's integrand (a C function), and the along-path Monte Carlo's kernels.
+`make` runs this after installing and the test session before its first test, so that no
+screening spends the compile time (about 10 s) on its first call.
 
     python -m screener.warmup
 """
@@ -39,6 +39,7 @@ def warm() -> None:
     segment_hits(seg, seg, seg, np.ones(2), 0.01)
     log_mixture(seg, seg, seg, np.ones(2), 0.01, np.zeros(2))
     pc_quadrature_many(np.ones(2), np.ones(2), np.ones(2), np.ones(2), np.full(2, 0.1))
+    pc_quadrature_many(np.ones(2), np.ones(2), np.ones(2), np.ones(2), np.full(2, 2.0))  # adaptive
 
 
 if __name__ == "__main__":

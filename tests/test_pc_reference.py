@@ -102,6 +102,59 @@ def test_chan_array_form_equals_the_series_far_into_the_tail():
         assert ok[k] == chan_is_reliable(xm[k], ym[k], sx[k], sy[k], R[k])[0]
 
 
+def _chan_full_window(xm, ym, sx, sy, R):
+    """Chan's series (Chan 2008) summed over every term within 40 standard deviations of the
+    Poisson weights' peak, written out independently of the package."""
+    import numpy as np
+    from scipy import special
+
+    u, v = R * R / (sx * sy), (xm / sx) ** 2 + (ym / sy) ** 2
+    half = v / 2
+    spread = 40.0 * math.sqrt(half) + 50.0
+    m = np.arange(max(0, int(half - spread)), int(half + spread), dtype=float)
+    log_w = m * math.log(half) - half - special.gammaln(m + 1)
+    return float(np.sum(np.exp(log_w) * special.gammainc(m + 1, u / 2)))
+
+
+def test_chan_series_leaves_out_only_terms_below_its_floor():
+    """Far in the tail the package sums only the terms whose bound, Poisson weight <= 1 times
+    P(m+1, u/2) <= (u/2)^(m+1) / (m+1)!, with Stirling's lower bound on ln Gamma, can exceed
+    e^-800.  The bound is checked against scipy's gammainc (a reference library) on a grid,
+    and the sum against the series over its whole window on seeded geometries beyond
+    chndtr's floor (misses of 12 to 60 sigma)."""
+    import numpy as np
+    from scipy import special
+
+    from screener.risk.pc import CHAN_TERM_LOG_FLOOR, _chan_head_end, pc_chan_many
+
+    x = np.array([1e-6, 1e-4, 1e-3, 0.01, 0.02, 0.3, 0.9])
+    for m in range(0, 400, 7):
+        bound = ((m + 1) * np.log(x) - (m + 1.5) * np.log(m + 2) + (m + 2)
+                 - 0.5 * math.log(2 * math.pi))
+        with np.errstate(divide="ignore"):
+            exact = np.log(special.gammainc(m + 1, x))
+        assert (exact <= bound + 1e-9).all(), m
+    first = _chan_head_end(x, np.full(len(x), 10 ** 6))
+    assert (first > 0).all() and (first < 10 ** 6).all()
+    with np.errstate(divide="ignore"):
+        assert (np.log(special.gammainc(first + 1, x)) < CHAN_TERM_LOG_FLOOR).all()
+
+    rng = np.random.default_rng(23)
+    n = 300
+    sx = 10 ** rng.uniform(1.0, 3.0, n)
+    sy = sx * 10 ** rng.uniform(-1.2, 1.2, n)
+    R = np.minimum(10 ** rng.uniform(0.0, 1.3, n), 0.2 * np.minimum(sx, sy))
+    ns, ang = rng.uniform(12, 60, n), rng.uniform(0, 2 * math.pi, n)
+    xm, ym = ns * sx * np.cos(ang), ns * sy * np.sin(ang)
+    many = pc_chan_many(xm, ym, sx, sy, R)
+    checked = 0
+    for k in range(n):
+        want = _chan_full_window(xm[k], ym[k], sx[k], sy[k], R[k])
+        assert many[k] == pytest.approx(want, rel=1e-12, abs=1e-320), k
+        checked += want > 0
+    assert checked > 100
+
+
 @pytest.mark.parametrize("args,exact,series", FURTHER_CASES)
 def test_further_published_cases(args, exact, series):
     # one unit in the last (fifth) digit: the published values are themselves rounded from

@@ -6,7 +6,7 @@ from __future__ import annotations
 
 import math
 
-from numba import njit
+from numba import cfunc, njit, types
 
 _SQRT2 = math.sqrt(2.0)
 _SQRT2PI = math.sqrt(2.0 * math.pi)
@@ -44,3 +44,11 @@ def fixed_rule(xm, ym, sx, sy, R, sin_t, cos_t, w, out):
         for q in range(sin_t.shape[0]):
             acc += w[q] * node_value(xm[n], ym[n], sx[n], sy[n], R[n], sin_t[q], cos_t[q])
         out[n] = acc
+
+
+@cfunc(types.float64(types.intc, types.CPointer(types.float64)), cache=True, nopython=True)
+def node_at_theta(n, xx):
+    """node_value at theta = xx[0] for the geometry xx[1:6] = (x0, y0, sx, sy, r): the
+    integrand of the adaptive rule as a C function (scipy's quad calls it through a
+    LowLevelCallable without entering Python)."""
+    return node_value(xx[1], xx[2], xx[3], xx[4], xx[5], math.sin(xx[0]), math.cos(xx[0]))
