@@ -11,6 +11,7 @@ injection (a leading apostrophe).
 from __future__ import annotations
 
 import json
+import math
 import os
 import random
 import signal
@@ -197,6 +198,9 @@ def test_chan_series_memory_is_bounded():
     assert not chan_is_reliable(20000.0, 0.0, 1.0, 1.0, 10.0)[0]
     assert pc_quadrature(20000.0, 0.0, 1.0, 1.0, 10.0) == 0.0
     assert pc_chan(300.0, 0.0, 1.0, 1.0, 0.1) == pytest.approx(0.0, abs=1e-300)
+    # a geometry that is not a number (a zero or NaN sigma) gives NaN, never a huge array
+    assert math.isnan(pc_chan(float("nan"), 0.0, 1.0, 1.0, 0.1))
+    assert math.isnan(pc_chan(1.0, 0.0, 0.0, 1.0, 0.1))
     assert resource.getrusage(resource.RUSAGE_SELF).ru_maxrss - before < 200_000   # KiB
 
 

@@ -264,19 +264,24 @@ def _chan_head_end(x: np.ndarray, hi: np.ndarray) -> np.ndarray:
 
 def _chan_series(xm, ym, sx, sy, R, terms: int | None = None) -> np.ndarray:
     """pc_chan for arrays of geometries: every geometry's terms in one array, so each array
-    function is called once for all of them."""
-    u = R * R / (sx * sy)
-    v = (xm / sx) ** 2 + (ym / sy) ** 2
+    function is called once for all of them.  A geometry whose u or v is not a finite number
+    gets NaN (no terms)."""
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+        u = R * R / (sx * sy)
+        v = (xm / sx) ** 2 + (ym / sy) ** 2
+    bad = ~(np.isfinite(u) & np.isfinite(v) & (u >= 0))
+    u, v = np.where(bad, 0.0, u), np.where(bad, 0.0, v)
     half = v / 2
     spread = 40.0 * np.sqrt(half) + 50.0
     lo = np.maximum(0, np.floor(half - spread)).astype(np.int64)
     hi = np.floor(half + spread).astype(np.int64) if terms is None else np.full(len(u), int(terms))
+    hi[bad] = lo[bad]
     widest = int((hi - lo).max()) if len(u) else 0
     if widest > CHAN_MAX_TERMS:
         raise ValueError(f"Chan's series would need {widest:,} terms; use pc_quadrature")
     end = np.maximum(np.minimum(np.maximum(hi, lo + 1), _chan_head_end(u / 2, hi)), lo)
-    n = end - lo
-    out = np.zeros(len(u))
+    n = np.where(bad, 0, end - lo)
+    out = np.where(bad, np.nan, 0.0)
     if not n.sum():
         return out
     owner = np.repeat(np.arange(len(u)), n)
