@@ -8,6 +8,13 @@ import math
 from ..constants import MU_WGS72_KM3_S2, RE_WGS72_KM, TWO_PI
 
 
+# The regime rules (common practice), shared by OrbitSize.regime and regimes_many
+REGIME_LOW_ALT_KM = 2000.0      # LEO: apogee below; HEO: perigee below (apogee above)
+SIDEREAL_DAY_S = 86164.1        # GEO: period within GEO_PERIOD_SHARE of it ...
+GEO_PERIOD_SHARE = 0.1
+GEO_MAX_SPREAD_KM = 2000.0      # ... and apogee minus perigee below this
+
+
 @dataclasses.dataclass(frozen=True)
 class OrbitSize:
     semi_major_axis_km: float
@@ -20,11 +27,12 @@ class OrbitSize:
     @property
     def regime(self) -> str:
         """LEO / MEO / GEO / HEO by perigee, apogee and period (common practice)."""
-        if self.apogee_alt_km < 2000.0:
+        if self.apogee_alt_km < REGIME_LOW_ALT_KM:
             return "LEO"
-        if abs(self.period_s - 86164.1) < 0.1 * 86164.1 and self.apogee_alt_km - self.perigee_alt_km < 2000:
+        if (abs(self.period_s - SIDEREAL_DAY_S) < GEO_PERIOD_SHARE * SIDEREAL_DAY_S
+                and self.apogee_alt_km - self.perigee_alt_km < GEO_MAX_SPREAD_KM):
             return "GEO"
-        if self.perigee_alt_km < 2000.0:
+        if self.perigee_alt_km < REGIME_LOW_ALT_KM:
             return "HEO"  # includes GTO: perigee in LEO, apogee high
         return "MEO"
 
@@ -109,7 +117,9 @@ def regimes_many(r_km, v_km_s, mu_km3_s2: float | None = None,
         perigee_alt = a * (1.0 - e) - re
         apogee_alt = a * (1.0 + e) - re
         period = TWO_PI * np.sqrt(a ** 3 / mu)
-        geo = (np.abs(period - 86164.1) < 0.1 * 86164.1) & (apogee_alt - perigee_alt < 2000)
-        code = np.select([~(a > 0), apogee_alt < 2000.0, geo, perigee_alt < 2000.0], [3, 0, 2, 3], 1)
+        geo = ((np.abs(period - SIDEREAL_DAY_S) < GEO_PERIOD_SHARE * SIDEREAL_DAY_S)
+               & (apogee_alt - perigee_alt < GEO_MAX_SPREAD_KM))
+        code = np.select([~(a > 0), apogee_alt < REGIME_LOW_ALT_KM, geo,
+                          perigee_alt < REGIME_LOW_ALT_KM], [3, 0, 2, 3], 1)
     names = ("LEO", "MEO", "GEO", "HEO")
     return [names[k] for k in code.tolist()]

@@ -15,7 +15,7 @@ from ..gcpause import gc_paused
 from ..screening.encounter import Encounter
 from .assess import assess_columns
 from .attention import Thresholds
-from .covariance import ASSUMED, CovarianceSources
+from .covariance import CovarianceSources
 from .flags import encounter_flags
 
 # Common practice: hard-body radius = sum of the two circumscribing-sphere radii.  With
@@ -124,7 +124,7 @@ def _risk_records(c: _Columns, sources: CovarianceSources, radius_m, thresholds:
                                 aliases)
     hbr = [radius_m(p) + radius_m(s) for p, s in zip(c.primary, c.secondary)]
     src, lab = est.source, est.label
-    assumed_any = [src[2 * n] == ASSUMED or src[2 * n + 1] == ASSUMED for n in range(total)]
+    assumed_any = (est.assumed[0::2] | est.assumed[1::2]).tolist()
     label = [ASSUMED_LABEL if assumed_any[n] else " + ".join(dict.fromkeys(src[2 * n:2 * n + 2]))
              for n in range(total)]
     cov1 = np.ascontiguousarray(est.cov_rtn_km2[0::2])

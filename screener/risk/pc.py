@@ -244,12 +244,10 @@ def _chan_head_end(x: np.ndarray, hi: np.ndarray) -> np.ndarray:
     def bound(m):
         return (m + 1) * np.log(x) - (m + 1.5) * np.log(m + 2) + (m + 2) - 0.5 * math.log(2 * math.pi)
 
-    small = x < 1.0
-    lo = np.zeros(len(x))
     top = hi.astype(float)
     with np.errstate(divide="ignore"):
-        done = ~small | (bound(top) >= CHAN_TERM_LOG_FLOOR)      # no such m <= hi
-        a, b = lo.copy(), top.copy()                              # bound(a) >= floor or a = 0
+        done = (x >= 1.0) | (bound(top) >= CHAN_TERM_LOG_FLOOR)   # no such m <= hi
+        a, b = np.zeros(len(x)), top.copy()                       # bound(a) >= floor or a = 0
         for _ in range(64):
             open_ = ~done & (b - a > 1)
             if not open_.any():
@@ -284,8 +282,9 @@ def _chan_series(xm, ym, sx, sy, R, terms: int | None = None) -> np.ndarray:
     out = np.where(bad, np.nan, 0.0)
     if not n.sum():
         return out
+    starts = np.cumsum(n) - n            # each geometry's first term in the joined array
     owner = np.repeat(np.arange(len(u)), n)
-    m = (np.arange(int(n.sum())) - np.repeat(np.cumsum(n) - n, n) + lo[owner]).astype(float)
+    m = (np.arange(int(n.sum())) - starts[owner] + lo[owner]).astype(float)
     h = half[owner]
     with np.errstate(divide="ignore"):
         log_w = np.where(h > 0, m * np.log(np.where(h > 0, h, 1.0)), np.where(m == 0, 0.0, -np.inf))
@@ -294,7 +293,7 @@ def _chan_series(xm, ym, sx, sy, R, terms: int | None = None) -> np.ndarray:
     # computed directly so it keeps its digits when it is tiny
     term = np.exp(log_w) * special.gammainc(m + 1, u[owner] / 2)
     has = n > 0
-    out[has] = np.add.reduceat(term, (np.cumsum(n) - n)[has])
+    out[has] = np.add.reduceat(term, starts[has])
     return out
 
 
